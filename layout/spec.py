@@ -1,0 +1,485 @@
+"""The spec file (``NAME.spanwise.toml``) and the ``key=value`` words of drawn labels.
+
+Everything is validated once, here, into SI floats. Every bad value gives one line
+naming the file (or the label's place), the key and what was expected; all of them
+are collected and raised together as one :class:`~layout.errors.SpecError`.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+import tomllib
+from dataclasses import dataclass, field, fields
+from pathlib import Path
+from typing import Any
+
+from .errors import SpecError
+from .quantity import QuantityError, length_factor, parse_quantity
+
+__all__ = ["Spec", "BeltSpec", "PulleySpec", "RouteSpec", "load_spec", "parse_spec",
+           "pulley_values", "BELT_KEYS", "PULLEY_KEYS", "ROLES", "spec_path_for",
+           "parse_label_words"]
+
+ROLES = ("driver", "driven", "idler", "tensioner")
+DIRECTIONS = ("ccw", "cw")
+TENSIONING = ("fixed", "constant")
+
+# key -> kind: a quantity kind of layout.quantity, or one of the special kinds below.
+BELT_KEYS: dict[str, str] = {
+    "section": "name", "mass_per_length": "mass_per_length", "axial_stiffness": "force",
+    "bending_stiffness": "bending_stiffness", "friction": "number+", "effective_friction": "number+",
+    "groove_angle": "angle", "strands": "count", "height": "length",
+    "tensioning": "tensioning", "install_tension": "force", "length": "length",
+    "stock_lengths": "length_list", "max_speed": "speed", "min_diameter": "length",
+}
+PULLEY_KEYS: dict[str, str] = {
+    "role": "role", "at": "point", "diameter": "length", "speed": "rotational_speed",
+    "direction": "direction", "speed_range": "speed_range", "orders": "orders",
+    "adjust": "angle", "power": "power", "torque": "torque", "rating": "power",
+    "groove_angle": "angle", "drag_torque": "torque", "force": "force",
+    "force_direction": "angle", "pivot": "point", "arm_torque": "torque",
+}
+TOP_KEYS = {"units", "belt_layers", "gravity", "service_factor", "keep_out_layers", "clearance",
+            "belt", "pulley", "route", "tolerances", "grip_margin"}
+TOLERANCE_KEYS = {"join", "attach", "tangent_deg", "tangent_offset"}
+ROUTE_KEYS = {"pulleys", "back", "crossed"}
+
+_ID = re.compile(r"^[A-Za-z][A-Za-z0-9_.\-]*$")
+
+
+@dataclass(frozen=True, slots=True)
+class BeltSpec:
+    """Belt properties given by the user (``None`` where not given). SI units."""
+
+    section: str | None = None
+    mass_per_length: float | None = None        # kg/m, one strand
+    axial_stiffness: float | None = None        # N, EA of one strand
+    bending_stiffness: float | None = None      # N*m^2
+    friction: float | None = None
+    effective_friction: float | None = None
+    groove_angle: float | None = None           # rad
+    strands: int | None = None
+    height: float | None = None                 # m
+    tensioning: str | None = None
+    install_tension: float | None = None        # N
+    length: float | None = None                 # m
+    stock_lengths: tuple[float, ...] | None = None
+    max_speed: float | None = None              # m/s
+    min_diameter: float | None = None           # m
+
+    def merged(self, over: "BeltSpec") -> "BeltSpec":
+        """``self`` with every value ``over`` gives replaced."""
+        return BeltSpec(**{f.name: (getattr(over, f.name) if getattr(over, f.name) is not None
+                                    else getattr(self, f.name)) for f in fields(self)})
+
+
+@dataclass(frozen=True, slots=True)
+class PulleySpec:
+    """What the spec or a label says about one pulley. SI units, points in drawing units."""
+
+    id: str
+    source: str
+    role: str | None = None
+    at: tuple[float, float] | None = None
+    diameter: float | None = None
+    speed: float | None = None                  # rad/s, magnitude
+    direction: str | None = None
+    speed_range: tuple[float, float] | None = None
+    orders: tuple[float, ...] | None = None
+    adjust: float | None = None                 # rad
+    power: float | None = None                  # W
+    torque: float | None = None                 # N*m
+    rating: float | None = None                 # W
+    groove_angle: float | None = None           # rad
+    drag_torque: float | None = None            # N*m
+    force: float | None = None                  # N
+    force_direction: float | None = None        # rad
+    pivot: tuple[float, float] | None = None
+    arm_torque: float | None = None             # N*m
+
+    def given(self) -> dict[str, Any]:
+        """The keys this spec sets (not ``None``), without ``id`` and ``source``."""
+        return {f.name: getattr(self, f.name) for f in fields(self)
+                if f.name not in ("id", "source") and getattr(self, f.name) is not None}
+
+
+@dataclass(frozen=True, slots=True)
+class RouteSpec:
+    """A loop to route through pulleys named in travel order."""
+
+    loop: str
+    pulleys: tuple[str, ...]
+    back: tuple[str, ...] = ()
+    crossed: tuple[tuple[str, str], ...] = ()
+
+
+@dataclass(frozen=True, slots=True)
+class Spec:
+    """A whole spec file. Ids are kept as written; look them up with :meth:`pulley`."""
+
+    path: str | None = None
+    units: str | None = None
+    belt_layers: tuple[str, ...] = ()
+    keep_out_layers: tuple[str, ...] = ()
+    clearance: float = 0.0                      # m
+    gravity: tuple[float, float] | None = None  # unit vector in the drawing plane
+    service_factor: float = 1.0
+    grip_margin: float | None = None
+    belt: BeltSpec = field(default_factory=BeltSpec)
+    loop_belts: dict[str, BeltSpec] = field(default_factory=dict)   # lower-case loop id
+    pulleys: dict[str, PulleySpec] = field(default_factory=dict)    # lower-case pulley id
+    routes: dict[str, RouteSpec] = field(default_factory=dict)      # lower-case loop id
+    tolerances: dict[str, float] = field(default_factory=dict)
+
+    def belt_for(self, loop_id: str) -> BeltSpec:
+        over = self.loop_belts.get(loop_id.lower())
+        return self.belt if over is None else self.belt.merged(over)
+
+
+def spec_path_for(drawing: str | Path) -> Path:
+    """``NAME.spanwise.toml`` beside ``NAME.dxf``."""
+    p = Path(drawing)
+    return p.with_name(p.stem + ".spanwise.toml")
+
+
+# --------------------------------------------------------------------------- values
+
+
+def _value(kind: str, raw: Any, where: str, problems: list[str], *, from_label: bool = False) -> Any:
+    """Convert ``raw`` of ``kind``; on failure add one line to ``problems`` and return None."""
+
+    def bad(expected: str) -> None:
+        problems.append(f"{where} = {raw!r}: {expected}")
+
+    try:
+        if kind == "name":
+            if not isinstance(raw, str) or not raw.strip():
+                return bad("expected a name, e.g. 'SPA'")
+            return raw.strip()
+        if kind in ("number+", "count"):
+            if isinstance(raw, str) and from_label:
+                try:
+                    raw = float(raw) if kind == "number+" else int(raw)
+                except ValueError:
+                    return bad("expected a plain number" if kind == "number+" else "expected a whole number")
+            if isinstance(raw, bool) or not isinstance(raw, (int, float)):
+                return bad("expected a plain number (no unit)" if kind == "number+" else
+                           "expected a whole number (no unit)")
+            if kind == "count":
+                if int(raw) != raw or raw < 1:
+                    return bad("expected a whole number of at least 1")
+                return int(raw)
+            if not math.isfinite(raw) or raw <= 0:
+                return bad("expected a number greater than 0")
+            return float(raw)
+        if kind == "role":
+            if not isinstance(raw, str) or raw.strip().lower() not in ROLES:
+                return bad(f"expected one of {', '.join(ROLES)}")
+            return raw.strip().lower()
+        if kind == "direction":
+            if not isinstance(raw, str) or raw.strip().lower() not in DIRECTIONS:
+                return bad("expected 'ccw' (counter-clockwise) or 'cw' (clockwise)")
+            return raw.strip().lower()
+        if kind == "tensioning":
+            if not isinstance(raw, str) or raw.strip().lower() not in TENSIONING:
+                return bad("expected 'fixed' (fixed centres) or 'constant'")
+            return raw.strip().lower()
+        if kind == "point":
+            if (not isinstance(raw, (list, tuple)) or len(raw) != 2
+                    or not all(isinstance(v, (int, float)) and not isinstance(v, bool) for v in raw)):
+                return bad("expected a point [x, y] in drawing units")
+            return (float(raw[0]), float(raw[1]))
+        if kind == "speed_range":
+            if not isinstance(raw, (list, tuple)) or len(raw) != 2:
+                return bad("expected two speeds, e.g. [\"700 rpm\", \"1800 rpm\"]")
+            lo = parse_quantity(raw[0], "rotational_speed")
+            hi = parse_quantity(raw[1], "rotational_speed")
+            if not 0 <= lo <= hi:
+                return bad("expected a low and a high speed, low <= high")
+            return (lo, hi)
+        if kind == "orders":
+            items = raw if isinstance(raw, (list, tuple)) else [raw]
+            out = []
+            for v in items:
+                if isinstance(v, str) and from_label:
+                    v = float(v)
+                if isinstance(v, bool) or not isinstance(v, (int, float)) or not v > 0:
+                    return bad("expected positive numbers, e.g. [1, 2]")
+                out.append(float(v))
+            if not out:
+                return bad("expected at least one order, e.g. [1]")
+            return tuple(out)
+        if kind == "length_list":
+            if not isinstance(raw, (list, tuple)) or not raw:
+                return bad("expected a list of lengths, e.g. [\"1600 mm\", \"1700 mm\"]")
+            vals = tuple(parse_quantity(v, "length") for v in raw)
+            if any(v <= 0 for v in vals):
+                return bad("expected lengths greater than 0")
+            return vals
+        value = parse_quantity(raw, kind)
+        if kind in ("length", "mass_per_length", "bending_stiffness") and value <= 0:
+            return bad("expected a value greater than 0")
+        if kind == "force" and value < 0:
+            return bad("expected a force of at least 0")
+        return value
+    except QuantityError as err:
+        problems.append(f"{where}: {err}")
+        return None
+    except (TypeError, ValueError):
+        return bad(f"expected a {kind.replace('_', ' ')}")
+
+
+def pulley_values(items: dict[str, Any], where: str, problems: list[str], *,
+                  from_label: bool = False, tag_case: bool = False) -> dict[str, Any]:
+    """Validate pulley keys; unknown keys are problems. ``where`` prefixes every message."""
+    out: dict[str, Any] = {}
+    for key, raw in items.items():
+        k = key.lower() if tag_case else key
+        if k not in PULLEY_KEYS:
+            problems.append(f"{where}: unknown key {key!r}; expected one of {', '.join(PULLEY_KEYS)}")
+            continue
+        if from_label and PULLEY_KEYS[k] in ("orders", "speed_range", "point"):
+            raw = [v.strip() for v in raw.split(",")] if isinstance(raw, str) else raw
+            if PULLEY_KEYS[k] == "point":
+                try:
+                    raw = [float(v) for v in raw]
+                except ValueError:
+                    problems.append(f"{where}.{k} = {items[key]!r}: expected a point x,y")
+                    continue
+        elif from_label and isinstance(raw, str) and "," in raw and PULLEY_KEYS[k] not in ("role", "direction"):
+            problems.append(f"{where}.{k} = {raw!r}: a comma inside a quantity; use a point for decimals")
+            continue
+        v = _value(PULLEY_KEYS[k], raw, f"{where}.{k}", problems, from_label=from_label)
+        if v is not None:
+            out[k] = v
+    return out
+
+
+def _check_pulley(p: dict[str, Any], where: str, problems: list[str]) -> None:
+    if "power" in p and "torque" in p:
+        problems.append(f"{where}: gives both power and torque; give one")
+    if p.get("role") == "tensioner":
+        ways = [k for k in ("force", "arm_torque") if k in p]
+        if len(ways) > 1:
+            problems.append(f"{where}: a tensioner takes force (with optional force_direction) or "
+                            f"pivot with arm_torque, not both")
+        if "arm_torque" in p and "pivot" not in p:
+            problems.append(f"{where}: arm_torque needs the arm's pivot = [x, y]")
+    if "diameter" in p and "at" not in p:
+        problems.append(f"{where}: diameter picks one of several pulleys at a point; give at = [x, y] too")
+
+
+def parse_label_words(words: list[str], where: str, problems: list[str]) -> dict[str, Any]:
+    """``key=value`` words of a drawn label into pulley values."""
+    items: dict[str, str] = {}
+    for w in words:
+        if "=" not in w:
+            problems.append(f"{where}: word {w!r} is not key=value")
+            continue
+        k, v = w.split("=", 1)
+        items[k.strip().lower()] = v.strip()
+    out = pulley_values(items, where, problems, from_label=True)
+    _check_pulley(out, where, problems)
+    return out
+
+
+def _belt(table: dict[str, Any], where: str, problems: list[str]) -> BeltSpec:
+    vals: dict[str, Any] = {}
+    for key, raw in table.items():
+        if key not in BELT_KEYS:
+            problems.append(f"{where}: unknown key {key!r}; expected one of {', '.join(BELT_KEYS)}")
+            continue
+        v = _value(BELT_KEYS[key], raw, f"{where}.{key}", problems)
+        if v is not None:
+            vals[key] = v
+    if "section" in vals:
+        from physics.catalogue import find_section
+        if find_section(vals["section"]) is None:
+            problems.append(f"{where}.section = {vals['section']!r}: not in the catalogue "
+                            f"(`spanwise catalog` lists it); give the belt's properties instead")
+    return BeltSpec(**vals)
+
+
+def _case_unique(table: dict[str, Any], where: str, problems: list[str]) -> dict[str, str]:
+    seen: dict[str, str] = {}
+    for key in table:
+        low = key.lower()
+        if low in seen:
+            problems.append(f"{where}: [{seen[low]}] and [{key}] differ only in case; ids are "
+                            f"matched case-insensitively")
+        else:
+            seen[low] = key
+    return seen
+
+
+def _layers(raw: Any, where: str, problems: list[str]) -> tuple[str, ...]:
+    if isinstance(raw, str):
+        raw = [raw]
+    if not isinstance(raw, list) or not all(isinstance(v, str) and v for v in raw):
+        problems.append(f"{where} = {raw!r}: expected a list of layer names or patterns, e.g. [\"BELT*\"]")
+        return ()
+    return tuple(raw)
+
+
+def parse_spec(data: dict[str, Any], name: str) -> Spec:
+    """Validate a parsed TOML document; ``name`` is how messages refer to the file."""
+    problems: list[str] = []
+    kw: dict[str, Any] = {"path": name}
+    for key in data:
+        if key not in TOP_KEYS:
+            problems.append(f"{name}: unknown key {key!r}; expected one of {', '.join(sorted(TOP_KEYS))}")
+    if "units" in data:
+        u = data["units"]
+        try:
+            if not isinstance(u, str):
+                raise ValueError
+            length_factor(u)
+            kw["units"] = {"inch": "in", "inches": "in"}.get(u.strip().lower(), u.strip().lower())
+        except (ValueError, QuantityError):
+            problems.append(f"{name}: units = {u!r}: expected a drawing unit: mm, cm, m, in or ft")
+    if "belt_layers" in data:
+        kw["belt_layers"] = _layers(data["belt_layers"], f"{name}: belt_layers", problems)
+    if "keep_out_layers" in data:
+        kw["keep_out_layers"] = _layers(data["keep_out_layers"], f"{name}: keep_out_layers", problems)
+    if "clearance" in data:
+        v = _value("length", data["clearance"], f"{name}: clearance", problems)
+        if v is not None:
+            kw["clearance"] = v
+    if "gravity" in data:
+        g = data["gravity"]
+        if (isinstance(g, list) and len(g) == 2 and all(isinstance(v, (int, float)) and not isinstance(v, bool) for v in g)
+                and math.hypot(g[0], g[1]) > 0):
+            n = math.hypot(g[0], g[1])
+            kw["gravity"] = (g[0] / n, g[1] / n)
+        else:
+            problems.append(f"{name}: gravity = {g!r}: expected a direction [x, y] in the drawing plane, "
+                            f"e.g. [0, -1]")
+    for key in ("service_factor", "grip_margin"):
+        if key in data:
+            v = _value("number+", data[key], f"{name}: {key}", problems)
+            if v is not None:
+                if key == "grip_margin" and v > 1:
+                    problems.append(f"{name}: grip_margin = {v}: expected a fraction in (0, 1]")
+                else:
+                    kw[key] = v
+    if "tolerances" in data:
+        tol = data["tolerances"]
+        if not isinstance(tol, dict):
+            problems.append(f"{name}: tolerances: expected a table")
+        else:
+            vals = {}
+            for k, raw in tol.items():
+                if k not in TOLERANCE_KEYS:
+                    problems.append(f"{name}: tolerances.{k}: unknown key; expected one of "
+                                    f"{', '.join(sorted(TOLERANCE_KEYS))}")
+                    continue
+                v = _value("number+", raw, f"{name}: tolerances.{k}", problems)
+                if v is not None:
+                    vals[k] = v
+            kw["tolerances"] = vals
+    belt = data.get("belt", {})
+    if not isinstance(belt, dict):
+        problems.append(f"{name}: belt: expected a table [belt]")
+        belt = {}
+    flat = {k: v for k, v in belt.items() if not isinstance(v, dict)}
+    subs = {k: v for k, v in belt.items() if isinstance(v, dict)}
+    kw["belt"] = _belt(flat, f"{name}: belt", problems)
+    _case_unique(subs, f"{name}: belt", problems)
+    loop_belts = {}
+    for lid, table in subs.items():
+        if lid.lower() in BELT_KEYS:
+            problems.append(f"{name}: [belt.{lid}]: a loop id may not be a belt key ({lid!r})")
+            continue
+        loop_belts[lid.lower()] = _belt(table, f"{name}: belt.{lid}", problems)
+    kw["loop_belts"] = loop_belts
+    pulleys = data.get("pulley", {})
+    if not isinstance(pulleys, dict):
+        problems.append(f"{name}: pulley: expected tables [pulley.ID]")
+        pulleys = {}
+    _case_unique(pulleys, f"{name}: pulley", problems)
+    ps: dict[str, PulleySpec] = {}
+    for pid, table in pulleys.items():
+        where = f"{name}: pulley.{pid}"
+        if not isinstance(table, dict):
+            problems.append(f"{where}: expected a table [pulley.{pid}]")
+            continue
+        vals = pulley_values(table, where, problems)
+        _check_pulley(vals, where, problems)
+        ps[pid.lower()] = PulleySpec(id=pid, source=where, **vals)
+    kw["pulleys"] = ps
+    routes = data.get("route", {})
+    if not isinstance(routes, dict):
+        problems.append(f"{name}: route: expected tables [route.LOOP]")
+        routes = {}
+    _case_unique(routes, f"{name}: route", problems)
+    rs: dict[str, RouteSpec] = {}
+    for lid, table in routes.items():
+        where = f"{name}: route.{lid}"
+        if not isinstance(table, dict):
+            problems.append(f"{where}: expected a table")
+            continue
+        for k in table:
+            if k not in ROUTE_KEYS:
+                problems.append(f"{where}: unknown key {k!r}; expected pulleys, back, crossed")
+        seq = table.get("pulleys")
+        if not isinstance(seq, list) or len(seq) < 2 or not all(isinstance(v, str) for v in seq):
+            problems.append(f"{where}.pulleys: expected at least two pulley ids in travel order")
+            continue
+        back = table.get("back", [])
+        if not isinstance(back, list) or not all(isinstance(v, str) for v in back):
+            problems.append(f"{where}.back: expected a list of pulley ids")
+            back = []
+        crossed_raw = table.get("crossed", [])
+        crossed: list[tuple[str, str]] = []
+        if not isinstance(crossed_raw, list):
+            problems.append(f"{where}.crossed: expected a list of spans \"FROM-TO\"")
+            crossed_raw = []
+        lower_seq = [v.lower() for v in seq]
+        for c in crossed_raw:
+            ok = False
+            if isinstance(c, str):
+                for i, a in enumerate(lower_seq):
+                    b = lower_seq[(i + 1) % len(seq)]
+                    if c.lower() == f"{a}-{b}":
+                        crossed.append((seq[i], seq[(i + 1) % len(seq)]))
+                        ok = True
+                        break
+            if not ok:
+                problems.append(f"{where}.crossed: {c!r} is not a span FROM-TO of consecutive pulleys "
+                                f"of this route")
+        for b in back:
+            if b.lower() not in lower_seq:
+                problems.append(f"{where}.back: {b!r} is not in the route's pulleys")
+        if lid.lower() in BELT_KEYS:
+            problems.append(f"{where}: a loop id may not be a belt key ({lid!r})")
+        rs[lid.lower()] = RouteSpec(lid, tuple(seq), tuple(back), tuple(crossed))
+    kw["routes"] = rs
+    if problems:
+        raise SpecError(problems)
+    return Spec(**kw)
+
+
+def load_spec(path: str | Path) -> Spec:
+    """Read and validate a spec file.
+
+    Raises
+    ------
+    SpecError
+        Listing every problem, one line each, each naming the file and the key.
+    """
+    p = Path(path)
+    try:
+        text = p.read_text(encoding="utf-8")
+    except (OSError, UnicodeDecodeError) as err:
+        raise SpecError(f"{p}: cannot read the spec file ({err})") from err
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as err:
+        raise SpecError(f"{p}: not valid TOML ({err})") from err
+    return parse_spec(data, str(p))
+
+
+def valid_id(text: str) -> bool:
+    """Whether ``text`` can be a pulley id written in a drawing label."""
+    return bool(_ID.match(text))

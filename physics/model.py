@@ -1,0 +1,112 @@
+"""The drive model: pulleys, belt loops and shafts, in SI units.
+
+Plain frozen dataclasses. ``layout`` builds a :class:`Drive` from a drawing and a spec;
+anything else (a script, a notebook, a test) can build one by hand.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from enum import Enum
+
+__all__ = ["Role", "Side", "Pulley", "Belt", "Loop", "Drive"]
+
+
+class Role(str, Enum):
+    DRIVER = "driver"
+    DRIVEN = "driven"
+    IDLER = "idler"
+    TENSIONER = "tensioner"
+
+
+class Side(str, Enum):
+    """Which face of the belt touches the pulley."""
+
+    INSIDE = "inside"
+    BACK = "back"
+
+
+@dataclass(frozen=True, slots=True)
+class Pulley:
+    """One pulley.
+
+    Attributes
+    ----------
+    id
+        From the drawing's label, the spec, or automatic (``P1``, ``P2``, ... in drawing order).
+    center_m
+        Centre, metres, in the drive's frame (drawing coordinates less a local origin).
+    radius_m
+        Pitch radius, metres.
+    """
+
+    id: str
+    center_m: tuple[float, float]
+    radius_m: float
+    role: Role = Role.IDLER
+    speed_rad_s: float | None = None          # magnitude, speed source only
+    direction: int | None = None              # +1 ccw, -1 cw, speed source only
+    speed_range_rad_s: tuple[float, float] | None = None
+    orders: tuple[float, ...] = (1.0,)
+    power_w: float | None = None              # magnitude given in the spec
+    torque_nm: float | None = None            # magnitude given in the spec
+    rating_w: float | None = None
+    groove_angle_rad: float | None = None
+    drag_torque_nm: float | None = None
+    force_n: float | None = None
+    force_direction: tuple[float, float] | None = None
+    pivot_m: tuple[float, float] | None = None
+    arm_torque_nm: float | None = None
+    adjust: tuple[float, float] | None = None  # unit direction the pulley may slide along
+
+
+@dataclass(frozen=True, slots=True)
+class Belt:
+    """Belt properties of one loop, per strand. ``None`` where unknown."""
+
+    section: str | None = None
+    mass_per_length_kg_m: float | None = None
+    axial_stiffness_n: float | None = None
+    bending_stiffness_nm2: float | None = None
+    friction: float | None = None
+    effective_friction: float | None = None
+    groove_angle_rad: float | None = None
+    strands: int = 1
+    height_m: float | None = None
+    tensioning: str = "fixed"
+    install_tension_n: float | None = None
+    length_m: float | None = None
+    stock_lengths_m: tuple[float, ...] | None = None
+    max_speed_m_s: float | None = None
+    min_pitch_diameter_m: float | None = None
+
+
+@dataclass(frozen=True, slots=True)
+class Loop:
+    """One belt loop, pulleys in travel order.
+
+    ``turns[i]`` is +1 where the belt goes counter-clockwise round pulley ``i`` (so the
+    pulley turns counter-clockwise), -1 clockwise. ``crossed[k]`` marks span ``k`` (from
+    pulley ``k`` to ``k + 1``) as carrying a half twist.
+    """
+
+    id: str
+    pulleys: tuple[str, ...]
+    turns: tuple[int, ...]
+    sides: tuple[Side, ...]
+    crossed: tuple[bool, ...]
+    belt: Belt = field(default_factory=Belt)
+
+    @property
+    def span_ids(self) -> tuple[str, ...]:
+        n = len(self.pulleys)
+        return tuple(f"{self.pulleys[k]}-{self.pulleys[(k + 1) % n]}" for k in range(n))
+
+
+@dataclass(frozen=True, slots=True)
+class Drive:
+    """Pulleys by id, loops, and shafts (groups of concentric pulley ids)."""
+
+    pulleys: dict[str, Pulley]
+    loops: tuple[Loop, ...]
+    shafts: tuple[tuple[str, ...], ...] = ()
