@@ -34,6 +34,10 @@ def _fmt(p: tuple[float, float]) -> str:
     return f"({p[0]:.6g}, {p[1]:.6g})"
 
 
+def _cross(a: np.ndarray, b: np.ndarray) -> float:
+    return float(a[0] * b[1] - a[1] * b[0])
+
+
 def span_points_drawing(model: Model, results: Results, loop_id: str) -> tuple[np.ndarray, np.ndarray] | None:
     """Exact span start and end points of a loop in drawing units, shape ``(n, 2)`` each."""
     g = results.loops[loop_id].geometry
@@ -105,10 +109,10 @@ def check_tangency(model: Model, results: Results) -> list[Finding]:
                 dl = float(np.hypot(*d))
                 if dl == 0:
                     continue
-                ang = math.degrees(math.atan2(abs(float(np.cross(u, d / dl))), float(np.dot(u, d / dl))))
+                ang = math.degrees(math.atan2(abs(_cross(u, d / dl)), float(np.dot(u, d / dl))))
                 worst_ang = max(worst_ang, ang)
                 for p in (a, b):
-                    worst_off = max(worst_off, abs(float(np.cross(u, p - S))))
+                    worst_off = max(worst_off, abs(_cross(u, p - S)))
             a0, _ = _seg_points(model, *lines[0])
             _, b1 = _seg_points(model, *lines[-1])
             sid = f"{lp.pulleys[k]}-{lp.pulleys[(k + 1) % n]}"
