@@ -207,15 +207,16 @@ def recognize_paths(d: Drawing, *, tol: Tolerances = Tolerances(),
         T[2 * a + 1] = sg[:, None] * np.column_stack([-r1[:, 1], r1[:, 0]]) / rr
 
     # --- which circle (if any) each end attaches to: |dist - r| <= attach * r, nearest
-    ncirc = keep.size
-    boxes = shapely.box(cx - cr * (1 + tol.attach), cy - cr * (1 + tol.attach),
-                        cx + cr * (1 + tol.attach), cy + cr * (1 + tol.attach))
-    tree = shapely.STRtree(boxes)
+    # (a back idler may be drawn at its outside diameter: spans then end `belt_height`
+    # outside its circle)
+    h = belt_height or 0.0
+    reach = cr * (1 + tol.attach) + h
+    tree = shapely.STRtree(shapely.box(cx - reach, cy - reach, cx + reach, cy + reach))
     qi, qc = tree.query(shapely.points(P))
     attach_c = np.full(2 * n, -1, dtype=np.int64)
     if qi.size:
         dist = np.hypot(P[qi, 0] - cx[qc], P[qi, 1] - cy[qc])
-        miss = np.abs(dist - cr[qc])
+        miss = np.minimum(np.abs(dist - cr[qc]), np.abs(dist - cr[qc] - h))
         ok = miss <= tol.attach * cr[qc]
         qi, qc, miss = qi[ok], qc[ok], miss[ok]
         order = np.lexsort((cr[qc], miss, qi))        # per end: smallest miss first

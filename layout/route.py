@@ -170,7 +170,11 @@ def _pulley_keys() -> set[str]:
 
 
 def _belt_height_du(spec: Spec, factor: float) -> float | None:
-    b = spec.belt
+    return _height_du(spec.belt, factor)
+
+
+def _height_du(b: BeltSpec, factor: float) -> float | None:
+    """Belt height in drawing units: the spec's, else its section's, else None."""
     h = b.height
     if h is None and b.section:
         sec = find_section(b.section)
@@ -318,6 +322,18 @@ def build_model(d: Drawing, spec: Spec) -> Model:
         names[circle] = (ps.id, "spec", values)
         by_id[key] = circle
         spec_at[key] = circle
+    # two small equal circles joined only by tangent lines: a slot, not a drive
+    named_circles = set(names) | set(spec_at.values()) | {by_id[p.lower()] for r in spec.routes.values()
+                                                           for p in r.pulleys if p.lower() in by_id}
+    chains = []
+    for ch in rec.chains:
+        slot = _possible_slot(ch, d, factor, tol, spec, named_circles)
+        if slot is not None:
+            findings.append(slot)
+        else:
+            chains.append(ch)
+    rec.chains = chains
+    wrapped = {w.circle for ch in rec.chains for w in ch.wraps}
     # automatic ids for wrapped circles without a name, in drawing order
     used = {v.lower() for v in by_id}
     counter = 0
@@ -446,6 +462,33 @@ def build_model(d: Drawing, spec: Spec) -> Model:
     return Model(d, spec, units, factor, origin, tol, records, loops, drive, graph, findings)
 
 
+#: A slot's circles are under this diameter (design, "Geometry rules").
+SLOT_MAX_DIAMETER_M = 0.020
+
+
+def _possible_slot(ch: Chain, d: Drawing, factor: float, tol: Tolerances, spec: Spec,
+                   named: set[int]) -> Finding | None:
+    """A ``possible-slot`` note when ``ch`` looks like a slot outline rather than a belt."""
+    if len(ch.wraps) != 2 or any(w.drawn for w in ch.wraps):
+        return None
+    a, b = ch.wraps[0].circle, ch.wraps[1].circle
+    circ = d.circles
+    ra, rb = float(circ.r[a]), float(circ.r[b])
+    if abs(ra - rb) > tol.join * min(ra, rb) or 2 * ra * factor >= SLOT_MAX_DIAMETER_M:
+        return None
+    if math.hypot(circ.x[a] - circ.x[b], circ.y[a] - circ.y[b]) >= 2 * (2 * ra):
+        return None
+    if a in named or b in named:
+        return None
+    from .recognize import layer_matches
+    if spec.belt_layers and layer_matches(ch.layer, spec.belt_layers):
+        return None
+    return Finding(Severity.NOTE, "possible-slot",
+                   f"two {2 * ra:.4g}-unit circles at {_fmt(_pt(circ, a))} and {_fmt(_pt(circ, b))} joined "
+                   f"by tangent lines look like a slot, not a belt drive; label them or name them in the "
+                   f"spec if they are pulleys", at=_pt(circ, a))
+
+
 def _pt(circ: Any, i: int) -> tuple[float, float]:
     return (float(circ.x[i]), float(circ.y[i]))
 
@@ -517,11 +560,53 @@ def _drawn_loop(lid: str, ch: Chain, d: Drawing, id_of_circle: dict[int, str],
                                        tol=1e-9 * float(max(radii_du) * factor)):
             crossed[i] = crossed[j] = True
         sides = _faces(turns, crossed, np.asarray(radii_du), g.wrap_rad)
+    height = _height_du(spec.belt_for(lid), factor)
+    if height is not None:
+        findings.extend(_back_offsets(ch, sides, d, height, tol))
+    radii_du = [w.radius for w in ch.wraps]
     for w, pid in zip(ch.wraps, ids):
         if w.radius != float(circ.r[w.circle]):
             records[pid].pitch_radius = w.radius
     return LoopRecord(lid, [w.circle for w in ch.wraps], ids, radii_du, turns, crossed, sides, ch,
                       spec.belt_for(lid), findings)
+
+
+def _back_offsets(ch: Chain, sides: list[Side], d: Drawing, height: float, tol: Tolerances) -> list[Finding]:
+    """Back idlers drawn at their outside diameter in the spans-only form.
+
+    Where the drawn spans on both sides of a back pulley are tangent to a circle ``height``
+    larger than the one drawn, the pulley is taken as drawn at its outside diameter and its
+    pitch radius is that larger radius (a note says so).
+    """
+    out: list[Finding] = []
+    S = d.segments
+    circ = d.circles
+    n = len(ch.wraps)
+    for i, (w, side) in enumerate(zip(ch.wraps, sides)):
+        if side is not Side.BACK or w.drawn:
+            continue
+        c = np.array([circ.x[w.circle], circ.y[w.circle]])
+        r = float(circ.r[w.circle])
+        dists = []
+        for span in (ch.spans[(i - 1) % n], ch.spans[i]):
+            lines = [s for s, _ in span.pieces if S.sweep[s] == 0.0]
+            if not lines:
+                break
+            s = lines[-1] if span is ch.spans[(i - 1) % n] else lines[0]
+            a = np.array([S.x0[s], S.y0[s]])
+            b = np.array([S.x1[s], S.y1[s]])
+            u = (b - a) / max(float(np.hypot(*(b - a))), 1e-300)
+            dists.append(abs(float(u[0] * (c - a)[1] - u[1] * (c - a)[0])))
+        if len(dists) != 2:
+            continue
+        limit = tol.tangent_offset * r
+        if all(abs(dd - r) > limit for dd in dists) and all(abs(dd - (r + height)) <= limit for dd in dists):
+            w.radius = r + height
+            out.append(Finding(Severity.NOTE, "back-offset",
+                               f"the spans at the back pulley at {_fmt(tuple(c))} are tangent to a circle "
+                               f"{height:.6g} outside it: taken as drawn at its outside diameter, pitch "
+                               f"radius {w.radius:.6g}", at=(float(c[0]), float(c[1]))))
+    return out
 
 
 def _routed_loop(r: Any, d: Drawing, by_id: dict[str, int], id_of_circle: dict[int, str], to_m: Any,
