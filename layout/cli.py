@@ -146,6 +146,13 @@ def _catalog(args: argparse.Namespace) -> int:
 
 
 def main(argv: list[str] | None = None) -> int:
+    import logging
+
+    # library chatter (the recovery reader's repairs, skipped entities) is reported as
+    # findings; stderr is kept for fatal problems, one line each
+    for name in ("ezdxf", "layout", "physics"):
+        logging.getLogger(name).addHandler(logging.NullHandler())
+        logging.getLogger(name).propagate = False
     args = _parser().parse_args(argv)
     try:
         if args.command == "check":

@@ -451,6 +451,7 @@ def build_model(d: Drawing, spec: Spec) -> Model:
                                        pr.values, to_m)
     plist = [p for p in pulleys]
     shafts = _shafts(d, records, plist, tol)
+    findings.extend(_travel_from_speed_source(loops, records, shafts))
     ploops = []
     for lp in loops:
         ploops.append(Loop(lp.id, tuple(lp.pulleys), tuple(lp.turns), tuple(lp.sides),
@@ -641,6 +642,79 @@ def _routed_loop(r: Any, d: Drawing, by_id: dict[str, int], id_of_circle: dict[i
     sides = [Side.INSIDE if f > 0 else Side.BACK for f in faces]
     return LoopRecord(r.loop, circles, ids, radii_du, turns, crossed, sides, None,
                       spec.belt_for(r.loop), [])
+
+
+def _reverse_record(lr: LoopRecord) -> None:
+    """Travel ``lr`` the other way, keeping its first pulley first."""
+    n = len(lr.pulleys)
+    first = lr.pulleys[0]
+    if lr.chain is not None:
+        lr.chain = lr.chain.reversed()
+    order = list(range(n - 1, -1, -1))
+    crossed = [lr.crossed[(n - 2 - i) % n] for i in range(n)]
+    lr.circles = [lr.circles[i] for i in order]
+    lr.pulleys = [lr.pulleys[i] for i in order]
+    lr.radii = [lr.radii[i] for i in order]
+    lr.turns = [-lr.turns[i] for i in order]
+    lr.sides = [lr.sides[i] for i in order]
+    lr.crossed = crossed
+    _rotate_record(lr, lr.pulleys.index(first))
+
+
+def _rotate_record(lr: LoopRecord, k: int) -> None:
+    """Start ``lr`` at its pulley number ``k``."""
+    if k == 0:
+        return
+    if lr.chain is not None:
+        lr.chain = lr.chain.rotated(k)
+    for name in ("circles", "pulleys", "radii", "turns", "sides", "crossed"):
+        xs = getattr(lr, name)
+        setattr(lr, name, xs[k:] + xs[:k])
+
+
+def _travel_from_speed_source(loops: list[LoopRecord], records: dict[str, PulleyRecord],
+                              shafts: list[list[str]]) -> list[Finding]:
+    """Make travel follow the speed source's rotation, loop after loop through the shafts.
+
+    A pulley turns the way the belt goes round it (its ``turn``). The loop holding the
+    speed source travels so that the source turns its given way; each loop reached
+    through a shaft travels so that its pulley on that shaft turns with the shaft, and
+    lists its pulleys from that one (the loop's driver).
+    """
+    out: list[Finding] = []
+    sources = [pid for pid, r in records.items() if r.values.get("speed") is not None]
+    if not sources:
+        return out
+    src = sources[0]
+    sense = {"ccw": 1, "cw": -1}.get(records[src].values.get("direction", ""), 0)
+    if sense == 0:
+        sense = 1
+        out.append(Finding(Severity.NOTE, "direction-assumed",
+                           f"pulley {src} has a speed but no direction; counter-clockwise assumed",
+                           refs=(src,)))
+    shaft_of = {p: k for k, s in enumerate(shafts) for p in s}
+    turning: dict[int, int] = {shaft_of[src]: sense}
+    done: set[int] = set()
+    frontier = [shaft_of[src]]
+    while frontier:
+        k = frontier.pop(0)
+        for i, lr in enumerate(loops):
+            if i in done:
+                continue
+            entry = next((p for p in lr.pulleys if shaft_of.get(p) == k), None)
+            if entry is None:
+                continue
+            j = lr.pulleys.index(entry)
+            if lr.turns[j] != turning[k]:
+                _reverse_record(lr)
+            _rotate_record(lr, lr.pulleys.index(entry))
+            done.add(i)
+            for p, t in zip(lr.pulleys, lr.turns):
+                s = shaft_of.get(p)
+                if s is not None and s not in turning:
+                    turning[s] = t
+                    frontier.append(s)
+    return out
 
 
 def _physics_pulley(pid: str, center_m: tuple[float, float], radius_m: float, v: dict[str, Any],

@@ -322,6 +322,24 @@ def _layers(raw: Any, where: str, problems: list[str]) -> tuple[str, ...]:
     return tuple(raw)
 
 
+def _tables(data: dict[str, Any], key: str, name: str, problems: list[str]
+            ) -> list[tuple[str, dict[str, Any], str]]:
+    """The sub-tables ``[key.ID]`` as ``(ID, table, where)``; ids unique regardless of case."""
+    group = data.get(key, {})
+    if not isinstance(group, dict):
+        problems.append(f"{name}: {key}: expected tables [{key}.ID]")
+        return []
+    _case_unique(group, f"{name}: {key}", problems)
+    out = []
+    for ident, table in group.items():
+        where = f"{name}: {key}.{ident}"
+        if not isinstance(table, dict):
+            problems.append(f"{where}: expected a table [{key}.{ident}]")
+            continue
+        out.append((ident, table, where))
+    return out
+
+
 def parse_spec(data: dict[str, Any], name: str) -> Spec:
     """Validate a parsed TOML document; ``name`` is how messages refer to the file."""
     problems: list[str] = []
@@ -393,32 +411,14 @@ def parse_spec(data: dict[str, Any], name: str) -> Spec:
             continue
         loop_belts[lid.lower()] = _belt(table, f"{name}: belt.{lid}", problems)
     kw["loop_belts"] = loop_belts
-    pulleys = data.get("pulley", {})
-    if not isinstance(pulleys, dict):
-        problems.append(f"{name}: pulley: expected tables [pulley.ID]")
-        pulleys = {}
-    _case_unique(pulleys, f"{name}: pulley", problems)
     ps: dict[str, PulleySpec] = {}
-    for pid, table in pulleys.items():
-        where = f"{name}: pulley.{pid}"
-        if not isinstance(table, dict):
-            problems.append(f"{where}: expected a table [pulley.{pid}]")
-            continue
+    for pid, table, where in _tables(data, "pulley", name, problems):
         vals = pulley_values(table, where, problems)
         _check_pulley(vals, where, problems)
         ps[pid.lower()] = PulleySpec(id=pid, source=where, **vals)
     kw["pulleys"] = ps
-    routes = data.get("route", {})
-    if not isinstance(routes, dict):
-        problems.append(f"{name}: route: expected tables [route.LOOP]")
-        routes = {}
-    _case_unique(routes, f"{name}: route", problems)
     rs: dict[str, RouteSpec] = {}
-    for lid, table in routes.items():
-        where = f"{name}: route.{lid}"
-        if not isinstance(table, dict):
-            problems.append(f"{where}: expected a table")
-            continue
+    for lid, table, where in _tables(data, "route", name, problems):
         for k in table:
             if k not in ROUTE_KEYS:
                 problems.append(f"{where}: unknown key {k!r}; expected pulleys, back, crossed")

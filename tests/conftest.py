@@ -53,6 +53,17 @@ def add_shuffled_lines_arcs(msp: Any, centers: Any, radii: Any, turns: Any, *, g
             msp.add_arc(*args, dxfattribs={"layer": layer})
 
 
+def add_piece(msp: Any, p: dict[str, Any], *, layer: str = "BELT") -> None:
+    """One piece of :func:`layout.draw.path_pieces` as a LINE or an ARC."""
+    if p["kind"] == "span":
+        msp.add_line(p["start"], p["end"], dxfattribs={"layer": layer})
+        return
+    cx, cy = p["center"]
+    a0 = math.degrees(math.atan2(p["start"][1] - cy, p["start"][0] - cx))
+    a1 = a0 + math.degrees(p["sweep"])
+    msp.add_arc((cx, cy), p["radius"], min(a0, a1), max(a0, a1), dxfattribs={"layer": layer})
+
+
 def add_drive(msp: Any, centers: Any, radii: Any, turns: Any, form: str, *, layer: str = "BELT",
               gap: float = 0.0, seed: int = 0, circles: bool = True) -> None:
     """Circles plus the belt path in one of the drawn forms: polyline, lines, spans, shuffled."""

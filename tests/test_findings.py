@@ -11,7 +11,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from conftest import add_drive, new_doc, save
+from conftest import add_drive, add_piece, new_doc, save
 from layout.draw import path_pieces
 from layout.pipeline import check_drawing
 
@@ -86,38 +86,45 @@ def test_one_unit_gap_between_line_and_arc_is_reported(tmp):
     msp.add_circle((0, 0), D / 2)
     msp.add_circle((C, 0), d / 2)
     pieces = path_pieces([(0, 0), (C, 0)], [D / 2, d / 2], [1, 1])
-    for i, p in enumerate(pieces):
-        if p["kind"] == "span":
-            a, b = np.asarray(p["start"]), np.asarray(p["end"])
-            if i == 0:
-                b = b - (b - a) / np.hypot(*(b - a))     # 1 unit short of the arc
-            msp.add_line(tuple(a), tuple(b))
-        else:
-            cx, cy = p["center"]
-            a0 = math.degrees(math.atan2(p["start"][1] - cy, p["start"][0] - cx))
-            msp.add_arc((cx, cy), p["radius"], a0, a0 + math.degrees(p["sweep"]))
+    a, b = np.asarray(pieces[0]["start"]), np.asarray(pieces[0]["end"])
+    pieces[0]["end"] = tuple(b - (b - a) / np.hypot(*(b - a)))      # 1 unit short of the arc
+    for p in pieces:
+        add_piece(msp, p)
     checked = check_drawing(save(doc, tmp))
     gaps = [f for f in checked.findings if f.code == "path-gap"]
     assert len(gaps) == 1 and gaps[0].data["gap"] == pytest.approx(1.0, rel=1e-6)
     assert len(checked.model.loops) == 1
 
 
-def test_open_path_is_reported(tmp):
+def test_missing_wrap_arc_is_closed_by_the_circle(tmp):
+    # span, arc, span drawn; the wrap on the big pulley left to its circle (a mixed form)
+    doc = new_doc("mm")
+    msp = doc.modelspace()
+    msp.add_circle((0, 0), D / 2)
+    msp.add_circle((C, 0), d / 2)
+    for p in path_pieces([(0, 0), (C, 0)], [D / 2, d / 2], [1, 1])[:3]:
+        add_piece(msp, p)
+    checked = check_drawing(save(doc, tmp))
+    assert len(checked.model.loops) == 1
+    assert not [f for f in checked.findings if f.severity.value == "error"]
+
+
+def test_missing_span_is_an_open_path(tmp):
+    # arc, span, arc drawn; the second span missing: the path does not close
     doc = new_doc("mm")
     msp = doc.modelspace()
     msp.add_circle((0, 0), D / 2)
     msp.add_circle((C, 0), d / 2)
     pieces = path_pieces([(0, 0), (C, 0)], [D / 2, d / 2], [1, 1])
-    for p in pieces[:3]:                       # span, wrap, span: the last wrap missing, arcs drawn
-        if p["kind"] == "span":
-            msp.add_line(p["start"], p["end"])
-        else:
-            cx, cy = p["center"]
-            a0 = math.degrees(math.atan2(p["start"][1] - cy, p["start"][0] - cx))
-            msp.add_arc((cx, cy), p["radius"], a0, a0 + math.degrees(p["sweep"]))
-    # the second span's end does reach the big circle, so it is a spans-and-arcs mix that closes
-    checked = check_drawing(save(doc, tmp))
-    assert len(checked.model.loops) == 1
+    for p in pieces[1:4]:
+        add_piece(msp, p)
+    path = save(doc, tmp)
+    checked = check_drawing(path)
+    opens = [f for f in checked.findings if f.code == "path-open"]
+    assert len(opens) == 1 and opens[0].severity.value == "error"
+    assert not checked.model.loops
+    r = run_cli("check", path)
+    assert r.returncode == 1
 
 
 def test_arc_on_no_pulley_is_reported(tmp):

@@ -271,3 +271,24 @@ def test_pitch_diameter_under_section_minimum(tmp):
     # ISO 4183 minimum datum diameter for SPA, 90 mm (from memory); the small pulley is 80 mm
     assert f.data["pitch_diameter_m"] == pytest.approx(0.08)
     assert f.data["min_pitch_diameter_m"] == pytest.approx(0.09)
+
+
+def test_travel_follows_the_speed_source_through_a_shared_shaft(tmp):
+    # stage 1: M -> J1 (open); stage 2: J2 (on J1's shaft) -> X. M turns clockwise.
+    doc = new_doc("mm")
+    msp = doc.modelspace()
+    add_drive(msp, [(0, 0), (400, 0)], [50.0, 120.0], [1, 1], "polyline", layer="S1")
+    add_drive(msp, [(400, 0), (400, 500)], [60.0, 150.0], [1, 1], "spans", layer="S2")
+    for t, c in (("M", (0, 0)), ("J1", (400, 100)), ("J2", (400, 0)), ("X", (400, 500))):
+        msp.add_text(t, dxfattribs={"insert": c})
+    path = save(doc, tmp)
+    (tmp / "drive.spanwise.toml").write_text('[pulley.M]\nspeed = "1450 rpm"\ndirection = "cw"\n')
+    checked = check_drawing(path)
+    s1, s2 = checked.model.loops
+    assert s1.pulleys == ["M", "J1"] and s1.turns == [-1, -1]
+    assert s2.pulleys == ["J2", "X"] and s2.turns == [-1, -1]       # J2 turns with J1
+    assert checked.model.drive.shafts == (("J1", "J2"),)
+    (tmp / "drive.spanwise.toml").write_text('[pulley.M]\nspeed = "1450 rpm"\n')
+    checked = check_drawing(path)
+    assert "direction-assumed" in _codes(checked)
+    assert checked.model.loops[0].turns == [1, 1]
