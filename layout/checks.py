@@ -128,10 +128,12 @@ def check_tangency(model: Model, results: Results) -> list[Finding]:
                           "tangent_start": [float(S[0]), float(S[1])], "tangent_end": [float(E[0]), float(E[1])]}))
                 continue
             # ends of spans whose wrap is left to the circle must reach the tangent point
-            for drawn_end, exact, wrap in ((a0, S, lp.chain.wraps[k]), (b1, E, lp.chain.wraps[(k + 1) % n])):
+            # (a span drawn a little long, past it, is sloppy but harmless)
+            for drawn_end, exact, wrap, inward in ((a0, S, lp.chain.wraps[k], u),
+                                                   (b1, E, lp.chain.wraps[(k + 1) % n], -u)):
                 if wrap.drawn:
                     continue
-                miss = float(np.hypot(*(drawn_end - exact)))
+                miss = float(np.dot(drawn_end - exact, inward))
                 limit = float(tol.join_abs(wrap.radius, float(np.abs(exact).max())))
                 if miss > max(limit, tol.tangent_offset * wrap.radius):
                     out.append(Finding(

@@ -17,9 +17,15 @@ from physics.findings import Finding, Severity
 
 from .route import Model
 
-__all__ = ["SCHEMA", "report_dict", "dumps", "summary_text", "finding_dict"]
+__all__ = ["SCHEMA", "CAUTION", "report_dict", "dumps", "summary_text", "finding_dict"]
 
 SCHEMA = "spanwise-report/1"
+
+#: Carried by every report: the numbers are estimates and belt drives hurt people.
+CAUTION = ("Estimates from the drawing as drawn and from catalogue values (some recalled, not read "
+           "from a standard): check them against the belt maker's data. Guard every nip point, lock "
+           "out the drive before tensioning or inspecting it, and follow local codes and licensed "
+           "engineering practice.")
 
 
 def _clean(v: Any) -> Any:
@@ -98,6 +104,7 @@ def report_dict(model: Model, results: Results, findings: list[Finding], *, vers
         "loops": loops,
         "shafts": shafts,
         "findings": [finding_dict(f) for f in findings],
+        "caution": CAUTION,
     }
     return _clean(out)
 
@@ -147,4 +154,6 @@ def summary_text(model: Model, results: Results, findings: list[Finding]) -> str
     for f in sorted(findings, key=lambda f: order[f.severity]):
         where = "" if f.at is None else f" at ({f.at[0]:.6g}, {f.at[1]:.6g})"
         lines.append(f"  {f.severity.value:<7} {f.code}{where}: {f.message}")
+    lines.append("  caution: estimates only; check against the belt maker's data, guard nip points, "
+                 "lock out before tensioning.")
     return "\n".join(lines) + "\n"

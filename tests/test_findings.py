@@ -217,3 +217,18 @@ def test_no_circles_no_loop_exit_2(tmp):
     doc.modelspace().add_lwpolyline([(0, 0), (100, 0), (100, 50), (0, 50)], close=True)
     r = run_cli("check", save(doc, tmp))
     assert r.returncode == 2 and "no belt loop" in r.stderr
+
+
+def test_spans_drawn_slightly_long_are_accepted(tmp):
+    # spans-only sketch with every line running 3 units past its tangent points
+    doc = new_doc("mm")
+    msp = doc.modelspace()
+    msp.add_circle((0, 0), D / 2)
+    msp.add_circle((C, 0), d / 2)
+    for p in path_pieces([(0, 0), (C, 0)], [D / 2, d / 2], [1, 1]):
+        if p["kind"] == "span":
+            a, b = np.asarray(p["start"]), np.asarray(p["end"])
+            u = (b - a) / np.hypot(*(b - a))
+            msp.add_line(tuple(a - 3 * u), tuple(b + 3 * u))
+    checked = check_drawing(save(doc, tmp))
+    assert not [f for f in checked.findings if f.severity.value == "error"], checked.findings
