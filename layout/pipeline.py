@@ -10,7 +10,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 from pathlib import Path
 
-from physics.analysis import Results, analyse
+from physics.analysis import GRIP_MARGIN, Options, Results, analyse
 from physics.findings import Finding, Severity
 
 from .checks import locate, run_checks
@@ -54,7 +54,8 @@ def load_spec_for(drawing: str | Path, spec: str | Path | None) -> tuple[Spec, s
 _ORDER = {Severity.ERROR: 0, Severity.WARNING: 1, Severity.NOTE: 2}
 
 
-def check_drawing(path: str | Path, *, spec: str | Path | None = None) -> Checked:
+def check_drawing(path: str | Path, *, spec: str | Path | None = None,
+                  grip_margin: float | None = None) -> Checked:
     """Read, analyse and check one drawing.
 
     Raises
@@ -77,7 +78,9 @@ def check_drawing(path: str | Path, *, spec: str | Path | None = None) -> Checke
     if sp is None:
         raise FatalInput(problems)
     model = build_model(drawing, sp)
-    results = analyse(model.drive)
+    options = Options(service_factor=sp.service_factor,
+                      grip_margin=grip_margin or sp.grip_margin or GRIP_MARGIN)
+    results = analyse(model.drive, options)
     findings = list(model.findings)
     findings.extend(locate(model, results, f) for f in results.findings)
     findings.extend(run_checks(model, results))

@@ -60,47 +60,120 @@ def _pt(model: Model, p_m: Any) -> list[float]:
     return [x, y]
 
 
+def _grip_name(state: int) -> str:
+    from physics.analysis import GRIP_STATES
+    return GRIP_STATES[int(state)]
+
+
+def _deg(v: Any) -> float:
+    return math.degrees(math.atan2(float(v[1]), float(v[0])))
+
+
 def report_dict(model: Model, results: Results, findings: list[Finding], *, version: str) -> dict[str, Any]:
     """The report of one drawing as plain values."""
     d = model.drawing
     drive = model.drive
+    moving = results.kinematics is not None and results.kinematics.source is not None
     loops = []
+    shaft_force: dict[str, Any] = {}
+    shaft_speed: dict[str, float] = {}
     for lp in model.loops:
         lr = results.loops.get(lp.id)
         g = lr.geometry if lr else None
-        loop = drive_loop = next(x for x in drive.loops if x.id == lp.id)
+        mech = lr.mechanics if lr else None
+        moved = moving and mech is not None and lp.id in results.kinematics.loops  # type: ignore[union-attr]
         n = len(lp.pulleys)
         pulleys = []
         for i, pid in enumerate(lp.pulleys):
             p = drive.pulleys[pid]
-            pulleys.append({
+            row: dict[str, Any] = {
                 "id": pid, "center": list(model.circle_center(lp.circles[i])),
-                "pitch_diameter_m": 2.0 * p.radius_m, "role": p.role.value, "side": lp.sides[i].value,
+                "pitch_diameter_m": 2.0 * p.radius_m,
+                "role": mech.roles[i] if mech is not None and mech.roles else p.role.value,
+                "side": lp.sides[i].value,
                 "wrap_deg": None if g is None else math.degrees(float(g.wrap_rad[i])),
-            })
+            }
+            if mech is not None:
+                st = int(mech.grip_state[0, i])
+                hub = mech.hub_n[:, i, :]
+                mags = np.hypot(hub[:, 0], hub[:, 1])
+                row.update({
+                    "speed_rpm": float(mech.omega_rad_s[0, i]) * 30.0 / math.pi if moved else None,
+                    "torque_nm": float(mech.torque_nm[0, i]) if moved else None,
+                    "power_w": float(mech.power_w[0, i]) if moved else None,
+                    "grip": _grip_name(st) if moved else "no-torque",
+                    "grip_utilisation": float(mech.utilisation[0, i]) if moved and st in (1, 2) else None,
+                    "hub_load_n": float(mags[0]), "hub_load_deg": _deg(hub[0]),
+                    "max_hub_load_n": float(mags.max()),
+                    "static_hub_load_n": float(np.hypot(*mech.static_hub_n[i])),
+                    "static_hub_load_deg": _deg(mech.static_hub_n[i]),
+                    "friction": float(mech.mu[i]),
+                })
+                if moved and mech.omega_rad_s.shape[0] > 1:
+                    w = mech.omega_rad_s[1:, i] * 30.0 / math.pi
+                    row["speed_range_rpm"] = [float(w.min()), float(w.max())]
+                shaft_force.setdefault(pid, hub[0])
+                if moved:
+                    shaft_speed[pid] = float(mech.omega_rad_s[0, i]) * 30.0 / math.pi
+            pulleys.append(row)
         spans = []
         for k in range(n):
             a, b = lp.pulleys[k], lp.pulleys[(k + 1) % n]
-            spans.append({
+            row = {
                 "id": f"{a}-{b}", "from": a, "to": b,
                 "start": None if g is None else _pt(model, g.span_start_m[k]),
                 "end": None if g is None else _pt(model, g.span_end_m[k]),
                 "length_m": None if g is None else float(g.span_length_m[k]),
                 "crossed": bool(lp.crossed[k]),
+            }
+            if mech is not None:
+                row.update({
+                    "quasi_static_tension_n": float(mech.quasi_static_n[0, k]),
+                    "tension_n": float(mech.tension_n[0, k]),
+                    "static_tension_n": float(mech.static_quasi_static_n[k]),
+                    "static_frequency_hz": float(mech.static_frequency_hz[k]),
+                })
+            spans.append(row)
+        loop_belt = next(x for x in drive.loops if x.id == lp.id).belt
+        row = {"id": lp.id, "length_m": None if g is None else g.length_m,
+               "path": "routed" if lp.chain is None else "drawn"}
+        if mech is not None:
+            row.update({
+                "speed_m_s": float(mech.speed_m_s[0]) if moved else None,
+                "tensioning": mech.tensioning,
+                "belt": _belt_dict(loop_belt, mech),
+                "install_tension_n": mech.install_tension_n,
+                "min_install_tension_n": mech.min_install_tension_n,
             })
-        loops.append({
-            "id": lp.id, "length_m": None if g is None else g.length_m,
-            "path": "routed" if lp.chain is None else "drawn",
-            "belt": _belt_dict(drive_loop.belt),
-            "pulleys": pulleys, "spans": spans,
-        })
-        _ = loop
-    shafts = [{"pulleys": list(s)} for s in drive.shafts]
+            if mech.tensioner_setting is not None:
+                row["tensioner_setting"] = mech.tensioner_setting
+                row["min_tensioner_setting"] = mech.min_tensioner_setting
+            stock = _stock_dict(model, lp, loop_belt, mech)
+            if stock:
+                row["stock"] = stock
+        else:
+            row["belt"] = _belt_dict(loop_belt, None)
+        row["pulleys"] = pulleys
+        row["spans"] = spans
+        loops.append(row)
+    shafts = []
+    for s in drive.shafts:
+        item: dict[str, Any] = {"pulleys": list(s)}
+        if any(p in shaft_force for p in s):
+            f = sum(np.asarray(shaft_force[p]) for p in s if p in shaft_force)
+            item["hub_load_n"] = float(np.hypot(*f))
+            item["hub_load_deg"] = _deg(f)
+        speeds = [shaft_speed[p] for p in s if p in shaft_speed]
+        if speeds:
+            item["speed_rpm"] = speeds[0]
+        shafts.append(item)
     out = {
         "schema": SCHEMA,
         "tool": {"name": "spanwise", "version": version},
         "drawing": {"path": d.path, "sha256": d.sha256, "units": model.units, "recovered": d.recovered,
                     "version": d.version},
+        "options": {"service_factor": results.options.service_factor,
+                    "grip_margin": results.options.grip_margin},
         "loops": loops,
         "shafts": shafts,
         "findings": [finding_dict(f) for f in findings],
@@ -109,10 +182,41 @@ def report_dict(model: Model, results: Results, findings: list[Finding], *, vers
     return _clean(out)
 
 
-def _belt_dict(b: Any) -> dict[str, Any]:
+def _belt_dict(b: Any, mech: Any) -> dict[str, Any]:
     out: dict[str, Any] = {"strands": b.strands}
     if b.section:
         out["section"] = b.section
+    if mech is not None:
+        out.update({
+            "mass_per_length_kg_m": b.mass_per_length_kg_m,
+            "friction": b.friction if b.friction is not None else float(min(mech.mu)),
+            "effective_friction": float(max(mech.mu)),
+            "groove_angle_deg": None if b.groove_angle_rad is None else math.degrees(b.groove_angle_rad),
+            "axial_stiffness_n": b.axial_stiffness_n,
+        })
+    return out
+
+
+def _stock_dict(model: Model, lp: Any, belt: Any, mech: Any) -> dict[str, Any]:
+    if not mech.stock_nearest_m and belt.length_m is None:
+        return {}
+    out: dict[str, Any] = {"length_m": belt.length_m, "unstretched_path_m": mech.unstretched_length_m,
+                           "nearest_m": list(mech.stock_nearest_m)}
+    if mech.adjust is not None:
+        pid, res = mech.adjust
+        p = model.drive.pulleys[pid]
+        dvec = np.asarray(p.adjust)
+        c = np.asarray(p.center_m)
+        out["adjust"] = {
+            "pulley": pid,
+            "position": _pt(model, c + res.offset_m * dvec),
+            "travel_m": res.offset_m,
+            "install_position": None if res.install_offset_m is None else _pt(model, c + res.install_offset_m * dvec),
+            "install_travel_m": res.install_offset_m,
+            "take_up_position": None if res.take_up_offset_m is None else _pt(model, c + res.take_up_offset_m * dvec),
+            "take_up_travel_m": res.take_up_offset_m,
+            "path_length_m": res.target_length_m,
+        }
     return out
 
 
@@ -129,24 +233,52 @@ def dumps(report: dict[str, Any]) -> str:
     return json.dumps(report, indent=2, allow_nan=False, ensure_ascii=False) + "\n"
 
 
+def _num(v: float, fmt: str = ".1f") -> str:
+    return format(float(v), fmt) if np.isfinite(v) else ""
+
+
 def summary_text(model: Model, results: Results, findings: list[Finding]) -> str:
-    """A short plain-text summary for the console."""
+    """A short plain-text summary for the console: a table per loop, then the findings."""
     lines = []
     d = model.drawing
     lines.append(f"{d.path}: {len(model.loops)} loop(s), {len(model.drive.pulleys)} pulley(s), "
                  f"units {model.units}")
+    moving = results.kinematics is not None and results.kinematics.source is not None
     for lp in model.loops:
-        g = results.loops[lp.id].geometry
+        lr = results.loops[lp.id]
+        g, mech = lr.geometry, lr.mechanics
         length = "n/a" if g is None else f"{g.length_m * 1e3:.1f} mm"
-        lines.append(f"  loop {lp.id}: pitch length {length}, "
-                     f"{'routed from the spec' if lp.chain is None else 'drawn'}")
+        head = f"  loop {lp.id}: pitch length {length}, {'routed from the spec' if lp.chain is None else 'drawn'}"
+        if mech is not None:
+            if moving:
+                head += f", belt speed {mech.speed_m_s[0]:.2f} m/s"
+            head += f", {mech.tensioning}"
+            if mech.install_tension_n is not None and mech.min_install_tension_n is not None:
+                head += f", set {mech.install_tension_n:.0f} N/strand (min {mech.min_install_tension_n:.0f} N)"
+        lines.append(head)
         if g is None:
             continue
-        lines.append(f"    {'pulley':<10} {'side':<7} {'pitch dia mm':>12} {'wrap deg':>9}")
+        lines.append(f"    {'pulley':<10} {'side':<7} {'dia mm':>8} {'wrap deg':>9} {'rpm':>9} "
+                     f"{'torque Nm':>10} {'grip':>6} {'hub N':>8}")
         for i, pid in enumerate(lp.pulleys):
             p = model.drive.pulleys[pid]
-            lines.append(f"    {pid:<10} {lp.sides[i].value:<7} {2e3 * p.radius_m:>12.2f} "
-                         f"{math.degrees(float(g.wrap_rad[i])):>9.2f}")
+            rpm = tq = grip = hub = ""
+            if mech is not None and np.isfinite(mech.hub_n[0, i]).all():
+                hub = f"{float(np.hypot(*mech.hub_n[0, i])):.0f}"
+                if moving:
+                    rpm = f"{mech.omega_rad_s[0, i] * 30 / math.pi:.1f}"
+                    tq = f"{mech.torque_nm[0, i]:.2f}"
+                    u = mech.utilisation[0, i]
+                    grip = "-" if not np.isfinite(u) else f"{u:.2f}"
+            lines.append(f"    {pid:<10} {lp.sides[i].value:<7} {2e3 * p.radius_m:>8.1f} "
+                         f"{math.degrees(float(g.wrap_rad[i])):>9.2f} {rpm:>9} {tq:>10} {grip:>6} {hub:>8}")
+        if mech is not None:
+            lines.append(f"    {'span':<16} {'length mm':>10} {'P N':>9} {'T N':>9} {'pluck Hz':>9}")
+            n = len(lp.pulleys)
+            for k in range(n):
+                sid = f"{lp.pulleys[k]}-{lp.pulleys[(k + 1) % n]}"
+                lines.append(f"    {sid:<16} {g.span_length_m[k] * 1e3:>10.1f} {_num(mech.quasi_static_n[0, k]):>9} "
+                             f"{_num(mech.tension_n[0, k]):>9} {_num(mech.static_frequency_hz[k]):>9}")
     counts = {s: sum(1 for f in findings if f.severity is s) for s in Severity}
     lines.append(f"  findings: {counts[Severity.ERROR]} error(s), {counts[Severity.WARNING]} warning(s), "
                  f"{counts[Severity.NOTE]} note(s)")

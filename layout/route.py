@@ -735,16 +735,20 @@ def _physics_pulley(pid: str, center_m: tuple[float, float], radius_m: float, v:
 
 
 def _physics_belt(b: BeltSpec) -> Belt:
+    """The belt of one loop: the spec's values over its section's."""
     sec = find_section(b.section) if b.section else None
     mu = b.friction if b.friction is not None else (sec.friction if sec else None)
     groove = b.groove_angle if b.groove_angle is not None else (sec.groove_angle_rad if sec else None)
     eff = b.effective_friction
-    if eff is None and mu is not None:
-        eff = mu / math.sin(groove / 2.0) if groove else mu
+    if eff is None and sec is not None and b.friction is None and b.groove_angle is None:
+        eff = sec.effective_friction if sec.groove_angle_rad is not None else None
+    mass = b.mass_per_length
+    if mass is None and sec is not None:
+        mass = sec.mass_per_length_kg_m
+        if mass is None and sec.density_kg_m3 and b.width and b.thickness:
+            mass = sec.density_kg_m3 * b.width * b.thickness
     return Belt(
-        section=sec.name if sec else None,
-        mass_per_length_kg_m=b.mass_per_length if b.mass_per_length is not None else (
-            sec.mass_per_length_kg_m if sec else None),
+        section=sec.name if sec else None, mass_per_length_kg_m=mass,
         axial_stiffness_n=b.axial_stiffness, bending_stiffness_nm2=b.bending_stiffness,
         friction=mu, effective_friction=eff, groove_angle_rad=groove, strands=b.strands or 1,
         height_m=b.height if b.height is not None else (sec.height_m if sec else None),

@@ -32,6 +32,7 @@ BELT_KEYS: dict[str, str] = {
     "groove_angle": "angle", "strands": "count", "height": "length",
     "tensioning": "tensioning", "install_tension": "force", "length": "length",
     "stock_lengths": "length_list", "max_speed": "speed", "min_diameter": "length",
+    "width": "length", "thickness": "length",
 }
 PULLEY_KEYS: dict[str, str] = {
     "role": "role", "at": "point", "diameter": "length", "speed": "rotational_speed",
@@ -67,6 +68,8 @@ class BeltSpec:
     stock_lengths: tuple[float, ...] | None = None
     max_speed: float | None = None              # m/s
     min_diameter: float | None = None           # m
+    width: float | None = None                  # m, flat belts
+    thickness: float | None = None              # m, flat belts
 
     def merged(self, over: "BeltSpec") -> "BeltSpec":
         """``self`` with every value ``over`` gives replaced."""

@@ -52,12 +52,12 @@ units = "mm"
 [belt]
 section = "SPA"
 strands = 1
-install_tension = "450 N"
+install_tension = "700 N"
 
 [pulley.MOTOR]
 speed = "1450 rpm"
 direction = "ccw"
-speed_range = ["700 rpm", "1500 rpm"]
+speed_range = ["1300 rpm", "1500 rpm"]
 rating = "4 kW"
 
 [pulley.FAN]
@@ -72,7 +72,7 @@ def bottling_conveyor(out: Path) -> None:
     msp = doc.modelspace()
     pulleys = {  # id: centre, radius, turn (+1 inside, -1 back)
         "DRV": ((0.0, 0.0), 60.0, 1),
-        "TEN": ((300.0, -78.0), 40.0, -1),
+        "TEN": ((300.0, -20.0), 40.0, -1),
         "HEAD": ((620.0, 0.0), 100.0, 1),
         "CAP": ((620.0, 380.0), 80.0, 1),
         "GUIDE": ((300.0, 262.0), 35.0, -1),
@@ -104,15 +104,15 @@ speed_range = ["100 rpm", "320 rpm"]
 
 [pulley.HEAD]
 role = "driven"
-power = "0.9 kW"
+torque = "45 N*m"          # conveyor head: constant torque over the speed range
 
 [pulley.CAP]
 role = "driven"
-power = "0.4 kW"
+torque = "16 N*m"
 
 [pulley.TEN]
 role = "tensioner"
-force = "500 N"
+force = "420 N"
 ''', encoding="utf-8")
 
 

@@ -1,0 +1,209 @@
+"""Speeds and power flow through loops and shared shafts.
+
+Loops are solved in order along the loop–shaft graph from the speed source's shaft: in
+each later loop the pulley on the incoming shaft is the loop's driver and turns with its
+shaft. Every speed is proportional to the source speed, so a loop's kinematics are
+ratios; torques follow from the loads and depend on speed only for loads given as power.
+
+Signs: angular speeds are counter-clockwise positive; a torque ``Q`` is positive where
+the pulley drives the belt and negative where it takes power out.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import networkx as nx
+import numpy as np
+from numpy.typing import NDArray
+
+from .findings import Finding, Severity
+from .model import Drive, Loop, Role
+
+__all__ = ["LoopKinematics", "Kinematics", "solve_kinematics", "loop_torques"]
+
+
+@dataclass(frozen=True, slots=True)
+class LoopKinematics:
+    """One loop's kinematics, per unit source speed.
+
+    Attributes
+    ----------
+    driver
+        Index (in the loop's travel order) of the balancing driver: the pulley on the
+        incoming shaft, or in the source loop the driver without a given power.
+    omega_per_source
+        Signed angular speed of each pulley per rad/s of source speed, shape ``(n,)``.
+    speed_per_source
+        Belt speed, m/s per rad/s of source speed.
+    downstream
+        For each pulley, the loops it passes power on to through its shaft.
+    """
+
+    loop: Loop
+    driver: int
+    omega_per_source: NDArray[np.float64]
+    speed_per_source: float
+    downstream: tuple[tuple[str, ...], ...]
+
+
+@dataclass(frozen=True, slots=True)
+class Kinematics:
+    """Kinematics of a whole drive: the source and every loop reached from it."""
+
+    source: str | None
+    source_speed_rad_s: float | None           # magnitude
+    source_direction: int
+    speed_range_rad_s: tuple[float, float] | None
+    loops: dict[str, LoopKinematics] = field(default_factory=dict)
+    order: tuple[str, ...] = ()                 # loops from the source outwards
+    findings: tuple[Finding, ...] = ()
+
+
+def _shaft_of(drive: Drive) -> dict[str, int]:
+    shaft = {}
+    k = 0
+    for k, s in enumerate(drive.shafts):
+        for p in s:
+            shaft[p] = k
+    nxt = len(drive.shafts)
+    for p in drive.pulleys:
+        if p not in shaft:
+            shaft[p] = nxt
+            nxt += 1
+    return shaft
+
+
+def solve_kinematics(drive: Drive) -> Kinematics:
+    """Speeds of every pulley per unit source speed, and the order loops are solved in.
+
+    Findings: ``ambiguous-drive`` (several speed sources in one connected drive, a cycle
+    of loops, a loop no shaft links to the source), ``direction-conflict`` (a loop's
+    travel order disagrees with the rotation its shaft gives it).
+    """
+    findings: list[Finding] = []
+    sources = [p for p in drive.pulleys.values() if p.speed_rad_s is not None]
+    shaft = _shaft_of(drive)
+    g = nx.MultiGraph()
+    for lp in drive.loops:
+        g.add_node(("loop", lp.id))
+        for p in lp.pulleys:
+            g.add_edge(("loop", lp.id), ("shaft", shaft[p]), pulley=p)
+    if not sources:
+        return Kinematics(None, None, 1, None, findings=tuple(findings))
+    src = sources[0]
+    comp_of_src = nx.node_connected_component(g, ("shaft", shaft[src.id])) if ("shaft", shaft[src.id]) in g else set()
+    for other in sources[1:]:
+        if ("shaft", shaft[other.id]) in comp_of_src:
+            findings.append(Finding(Severity.ERROR, "ambiguous-drive",
+                                    f"pulleys {src.id} and {other.id} both give a speed; one speed "
+                                    f"source per drive", refs=(src.id, other.id)))
+    simple = nx.Graph(g.subgraph(comp_of_src))
+    if simple.number_of_edges() != g.subgraph(comp_of_src).number_of_edges() or not nx.is_forest(simple):
+        cyc = [lp.id for lp in drive.loops if ("loop", lp.id) in comp_of_src]
+        findings.append(Finding(Severity.ERROR, "ambiguous-drive",
+                                f"loops {', '.join(cyc)} close a cycle through their shafts (or one loop "
+                                f"touches a shaft twice); the speeds cannot be followed from the source",
+                                refs=tuple(cyc)))
+        return Kinematics(src.id, src.speed_rad_s, src.direction or 1, src.speed_range_rad_s,
+                          findings=tuple(findings))
+    direction = src.direction or 1
+    omega_shaft: dict[int, float] = {shaft[src.id]: float(direction)}   # per unit source speed
+    loops: dict[str, LoopKinematics] = {}
+    order: list[str] = []
+    by_id = {lp.id: lp for lp in drive.loops}
+    parent_shaft: dict[str, int] = {}
+    for a, b in nx.bfs_edges(simple, ("shaft", shaft[src.id])):
+        if a[0] == "shaft" and b[0] == "loop":
+            parent_shaft[b[1]] = a[1]
+            order.append(b[1])
+    for lid in order:
+        lp = by_id[lid]
+        k_in = parent_shaft[lid]
+        entry = next(i for i, p in enumerate(lp.pulleys) if shaft[p] == k_in)
+        w_entry = omega_shaft[k_in]
+        r = np.asarray([drive.pulleys[p].radius_m for p in lp.pulleys])
+        turns = np.asarray(lp.turns, dtype=float)
+        if np.sign(w_entry) != turns[entry]:
+            findings.append(Finding(Severity.ERROR, "direction-conflict",
+                                    f"loop {lid}: its travel order turns {lp.pulleys[entry]} against "
+                                    f"its shaft; reverse the loop's pulley order", refs=(lid,)))
+        v = abs(w_entry) * r[entry]
+        omega = turns * v / r
+        driver = entry
+        if k_in == shaft[src.id]:
+            cands = [i for i, p in enumerate(lp.pulleys)
+                     if drive.pulleys[p].role is Role.DRIVER and drive.pulleys[p].power_w is None
+                     and drive.pulleys[p].torque_nm is None]
+            if cands:
+                driver = cands[0]
+        for i, p in enumerate(lp.pulleys):
+            omega_shaft.setdefault(shaft[p], float(omega[i]))
+        loops[lid] = LoopKinematics(lp, driver, omega, float(v), ())
+    # which loops each pulley feeds through its shaft
+    feeds: dict[int, list[str]] = {}
+    for lid in order:
+        feeds.setdefault(parent_shaft[lid], []).append(lid)
+    for lid in order:
+        lk = loops[lid]
+        down = []
+        for i, p in enumerate(lk.loop.pulleys):
+            k = shaft[p]
+            down.append(tuple(x for x in feeds.get(k, []) if x != lid and order.index(x) > order.index(lid)))
+        loops[lid] = LoopKinematics(lk.loop, lk.driver, lk.omega_per_source, lk.speed_per_source, tuple(down))
+    for lp in drive.loops:
+        if lp.id not in loops and ("loop", lp.id) in g:
+            findings.append(Finding(Severity.ERROR, "ambiguous-drive",
+                                    f"loop {lp.id}: no shaft links it to the speed source {src.id}; give "
+                                    f"it its own drive or join it by a shaft", refs=(lp.id,)))
+    return Kinematics(src.id, src.speed_rad_s, direction, src.speed_range_rad_s, loops, tuple(order),
+                      tuple(findings))
+
+
+def loop_torques(drive: Drive, kin: Kinematics, source_speed: NDArray[np.float64]
+                 ) -> tuple[dict[str, NDArray[np.float64]], list[Finding]]:
+    """Torque on every pulley of every loop (whole set of strands), shape ``(K, n)``.
+
+    ``source_speed`` is an array of source speeds (rad/s, magnitudes). Loads given as
+    power keep their power over the range, loads given as torque keep their torque.
+    Loops are solved from the far end back to the source, so that each shaft passes on
+    what its downstream loops and its own load take.
+    """
+    w_src = np.asarray(source_speed, dtype=float).reshape(-1)
+    torques: dict[str, NDArray[np.float64]] = {}
+    driver_power: dict[str, NDArray[np.float64]] = {}
+    findings: list[Finding] = []
+    for lid in reversed(kin.order):
+        lk = kin.loops[lid]
+        lp = lk.loop
+        n = len(lp.pulleys)
+        w = np.abs(lk.omega_per_source)[None, :] * w_src[:, None]          # (K, n)
+        Q = np.zeros((w_src.size, n))
+        with np.errstate(divide="ignore", invalid="ignore"):
+            for i, pid in enumerate(lp.pulleys):
+                if i == lk.driver:
+                    continue
+                p = drive.pulleys[pid]
+                q = np.zeros(w_src.size)
+                if p.role is Role.DRIVER:
+                    if p.power_w is not None:
+                        q = q + p.power_w / w[:, i]
+                    elif p.torque_nm is not None:
+                        q = q + p.torque_nm
+                else:
+                    if p.power_w is not None:
+                        q = q - p.power_w / w[:, i]
+                    elif p.torque_nm is not None:
+                        q = q - p.torque_nm
+                    if p.drag_torque_nm is not None:
+                        q = q - p.drag_torque_nm
+                for down in lk.downstream[i]:
+                    q = q - driver_power[down] / w[:, i]
+                Q[:, i] = np.where(np.isfinite(q), q, 0.0)
+        r = np.asarray([drive.pulleys[p].radius_m for p in lp.pulleys])
+        others = np.delete(np.arange(n), lk.driver)
+        Q[:, lk.driver] = -r[lk.driver] * np.sum(Q[:, others] / r[others], axis=1)
+        # the balancing driver's own shaft may feed later loops too (a jackshaft driver)
+        driver_power[lid] = Q[:, lk.driver] * w[:, lk.driver]
+        torques[lid] = Q
+    return torques, findings
