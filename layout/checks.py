@@ -18,7 +18,7 @@ from physics.findings import Finding, Severity
 from physics.model import Side
 
 from .recognize import layer_matches
-from .route import LoopRecord, Model
+from .route import Model
 
 __all__ = ["CHECKS", "run_checks", "span_points_drawing"]
 
@@ -312,9 +312,20 @@ def run_checks(model: Model, results: Results) -> list[Finding]:
 
 
 def locate(model: Model, results: Results, f: Finding) -> Finding:
-    """Place a physics finding (refs only) at the drawn point it concerns."""
+    """Place a physics finding (refs only) at the drawn point it concerns: the middle of a
+    span it names, else the centre of a pulley, else the loop's first pulley."""
     if f.at is not None:
         return f
+    for lp in model.loops:
+        n = len(lp.pulleys)
+        sids = [f"{lp.pulleys[k]}-{lp.pulleys[(k + 1) % n]}" for k in range(n)]
+        for ref in f.refs:
+            if ref in sids and (lp.id in f.refs or len(f.refs) == 1):
+                pts = span_points_drawing(model, results, lp.id)
+                if pts is not None:
+                    k = sids.index(ref)
+                    mid = (pts[0][k] + pts[1][k]) / 2.0
+                    return f.located((float(mid[0]), float(mid[1])))
     for ref in f.refs:
         if ref in model.pulleys:
             return f.located(model.circle_center(model.pulleys[ref].circle))
@@ -324,4 +335,3 @@ def locate(model: Model, results: Results, f: Finding) -> Finding:
     return f
 
 
-_ = LoopRecord

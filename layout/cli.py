@@ -40,6 +40,9 @@ def _parser() -> argparse.ArgumentParser:
     c.add_argument("--json", metavar="OUT.json", help="write the JSON report here")
     c.add_argument("--fail-on", choices=("error", "warning"), default="error",
                    help="lowest severity that makes the exit status 1 (default: error)")
+    c.add_argument("--grip-margin", type=float, metavar="U",
+                   help="highest grip utilisation the install tension is sized for (default: the "
+                        "spec's grip_margin, else 0.8)")
     c.add_argument("--force", action="store_true",
                    help="overwrite output files that spanwise did not write")
     c.add_argument("--quiet", "-q", action="store_true", help="print nothing but fatal problems")
@@ -95,7 +98,9 @@ def _check(args: argparse.Namespace) -> int:
         elif not out_json.parent.exists() and str(out_json.parent):
             problems.append(f"{out_json}: folder {out_json.parent} does not exist")
     try:
-        checked = check_drawing(src, spec=args.spec)
+        if args.grip_margin is not None and not 0 < args.grip_margin <= 1:
+            raise FatalInput(f"--grip-margin {args.grip_margin}: expected a fraction in (0, 1]")
+        checked = check_drawing(src, spec=args.spec, grip_margin=args.grip_margin)
     except FatalInput as err:
         for line in problems + err.problems:
             print(f"spanwise: {line}", file=sys.stderr)
@@ -122,26 +127,32 @@ def _check(args: argparse.Namespace) -> int:
 def _catalog(args: argparse.Namespace) -> int:
     import math
 
-    from physics.catalogue import SECTIONS
+    from physics.catalogue import catalogue_rows
 
+    rows_all = catalogue_rows()
     if args.json:
         rows = [{"name": s.name, "family": s.family, "min_pitch_diameter_m": s.min_pitch_diameter_m,
                  "height_m": s.height_m, "mass_per_length_kg_m": s.mass_per_length_kg_m,
                  "groove_angle_deg": None if s.groove_angle_rad is None else math.degrees(s.groove_angle_rad),
                  "friction": s.friction, "effective_friction": s.effective_friction,
-                 "max_speed_m_s": s.max_speed_m_s, "source": s.source} for s in SECTIONS.values()]
+                 "max_speed_m_s": s.max_speed_m_s,
+                 "stock_lengths_m": None if s.stock_lengths_m is None else list(s.stock_lengths_m),
+                 "source": s.source} for s in rows_all]
         print(json.dumps(rows, indent=2))
         return EXIT_OK
-    print(f"{'section':<8} {'family':<12} {'min dia mm':>10} {'height mm':>9} {'kg/m':>7} "
+    print(f"{'section':<14} {'family':<12} {'min dia mm':>10} {'height mm':>9} {'kg/m':>7} "
           f"{'groove':>6} {'mu':>5} {'mu eff':>6} {'v max':>6}")
-    for s in SECTIONS.values():
+    for s in rows_all:
         g = "-" if s.groove_angle_rad is None else f"{math.degrees(s.groove_angle_rad):.0f}"
         m = "-" if s.mass_per_length_kg_m is None else f"{s.mass_per_length_kg_m:.3f}"
         v = "-" if s.max_speed_m_s is None else f"{s.max_speed_m_s:.0f}"
-        print(f"{s.name:<8} {s.family:<12} {s.min_pitch_diameter_m * 1e3:>10.0f} {s.height_m * 1e3:>9.1f} "
-              f"{m:>7} {g:>6} {s.friction:>5.2f} {s.effective_friction:>6.3f} {v:>6}")
-    print("Sources: see `spanwise catalog --json`; values marked from memory must be checked "
-          "against the belt maker's data.")
+        dmin = "-" if s.min_pitch_diameter_m is None else f"{s.min_pitch_diameter_m * 1e3:.0f}"
+        h = "-" if s.height_m is None else f"{s.height_m * 1e3:.1f}"
+        print(f"{s.name:<14} {s.family:<12} {dmin:>10} {h:>9} {m:>7} {g:>6} {s.friction:>5.2f} "
+              f"{s.effective_friction:>6.3f} {v:>6}")
+    print("Also: nPH/nPJ/nPK/nPL/nPM (n ribs), ROUND-<d mm>, WIRE-6X19-<d mm>. Flat belts take width and "
+          "thickness. Sources: `spanwise catalog --json`; values from memory must be checked against the "
+          "belt maker's data.")
     return EXIT_OK
 
 

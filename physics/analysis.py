@@ -246,10 +246,13 @@ def _loop_mechanics(drive: Drive, loop: Loop, g: geo.LoopGeometry, kin: Kinemati
         i = tensioner.index
         gain = ten.tensioner_gain(g, c, tensioner)
         pid = loop.pulleys[i]
-        if gain <= 1e-12:
-            findings.append(Finding(Severity.ERROR, "tensioner-slide",
-                                    f"loop {loop.id}: tensioner {pid} slides square to the resultant of "
-                                    f"its spans; it cannot set the belt tension", refs=(loop.id, pid)))
+        if gain <= 1e-12 * r[i]:
+            arm = tensioner.arm_torque_nm is not None
+            findings.append(Finding(Severity.ERROR, "tensioner-lever" if arm else "tensioner-slide",
+                                    f"loop {loop.id}: tensioner {pid} " + (
+                                        "has its pivot on the line of the belt's force" if arm else
+                                        "slides square to the resultant of its spans") +
+                                    "; it cannot set the belt tension", refs=(loop.id, pid)))
             gain = float("nan")
         if tensioner.arm_torque_nm is not None:
             e = -g.span_dir[i - 1] + g.span_dir[i]
