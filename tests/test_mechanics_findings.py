@@ -156,3 +156,18 @@ power = "2 kW"
     assert y == pytest.approx(0.0, abs=1e-9) and adj["travel_m"] == pytest.approx(-x * 1e-3, rel=1e-9)
     # installing needs the motor closer in, take-up further out, by common-practice allowances
     assert adj["install_travel_m"] < adj["travel_m"] < adj["take_up_travel_m"]
+
+
+def test_flat_belt_mass_from_width_and_thickness(tmp):
+    # polyamide flat belt 60 mm x 3 mm: 1160 kg/m3 * 0.06 * 0.003 = 0.2088 kg/m
+    # (density of Shigley Table 17-2's polyamide, 0.042 lbf/in^3, from memory)
+    doc = new_doc("mm")
+    add_drive(doc.modelspace(), [(0.0, 0.0), (700.0, 0.0)], [80.0, 200.0], [1, 1], "polyline")
+    path = save(doc, tmp)
+    (tmp / "drive.spanwise.toml").write_text(
+        '[belt]\nsection = "flat-polyamide"\nwidth = "60 mm"\nthickness = "3 mm"\ninstall_tension = "300 N"\n')
+    checked = check_drawing(path)
+    (loop,) = checked.model.drive.loops
+    assert loop.belt.mass_per_length_kg_m == pytest.approx(1160 * 0.06 * 0.003, rel=1e-12)
+    assert loop.belt.friction == pytest.approx(0.8)
+    assert loop.belt.effective_friction is None or loop.belt.effective_friction == pytest.approx(0.8)
