@@ -46,6 +46,23 @@ def _parser() -> argparse.ArgumentParser:
     c.add_argument("--force", action="store_true",
                    help="overwrite output files that spanwise did not write")
     c.add_argument("--quiet", "-q", action="store_true", help="print nothing but fatal problems")
+    s = sub.add_parser("suggest-idler", help="find idler positions that clear a span's resonances",
+                       description="Find positions for a new idler on a span that clear its resonances "
+                                   "over the speed range and keep every pulley's grip within the margin.",
+                       epilog=_CAUTION)
+    s.add_argument("drawing", help="the DXF drawing")
+    s.add_argument("--span", required=True, help="the span, FROM-TO in travel order (as in the report)")
+    s.add_argument("--loop", help="the loop, where the span id is not unique")
+    s.add_argument("--diameter", help="the idler's pitch diameter with a unit, e.g. '90 mm' "
+                                      "(default: the smaller of the span's pulleys, at least the section's minimum)")
+    s.add_argument("--side", choices=("back", "inside"), default="back",
+                   help="press on the back of the belt from outside the loop (default) or from inside")
+    s.add_argument("--region", metavar="LAYER", help="allowed area for the idler's centre: closed polylines on LAYER")
+    s.add_argument("--count", type=int, default=3, help="how many positions to give (default 3)")
+    s.add_argument("--spec", help="spec file (default: NAME.spanwise.toml beside the drawing)")
+    s.add_argument("--out", metavar="OUT.dxf", help="write a copy of the drawing with the suggestions drawn")
+    s.add_argument("--json", metavar="OUT.json", help="write the suggestions as JSON")
+    s.add_argument("--force", action="store_true", help="overwrite output files that spanwise did not write")
     cat = sub.add_parser("catalog", help="list the belt sections spanwise knows")
     cat.add_argument("--json", action="store_true", help="print the catalogue as JSON")
     return p
@@ -124,6 +141,86 @@ def _check(args: argparse.Namespace) -> int:
     return EXIT_FINDINGS if bad else EXIT_OK
 
 
+def _output_problems(out: Path | None, src: Path, force: bool, *, ours: bool = False) -> list[str]:
+    """Reasons not to write ``out`` (one line each)."""
+    if out is None:
+        return []
+    if out.exists() and src.exists() and out.resolve() == src.resolve():
+        return [f"{out}: is the input drawing; spanwise never writes over its input here"]
+    if not out.parent.exists() and str(out.parent):
+        return [f"{out}: folder {out.parent} does not exist"]
+    if out.exists() and not force and not ours:
+        return [f"{out}: exists and was not written by spanwise; use --force to overwrite it"]
+    return []
+
+
+def _suggest(args: argparse.Namespace) -> int:
+    import gc
+
+    gc.disable()
+    from physics.model import Side
+
+    from .errors import FatalInput
+    from .idler import find_span, region_polygons, suggest, suggestion_dict, write_suggestions
+    from .pipeline import check_drawing
+    from .quantity import QuantityError, parse_quantity
+    from .report import dumps
+
+    src = Path(args.drawing)
+    out = Path(args.out) if args.out else None
+    out_json = Path(args.json) if args.json else None
+    problems = _output_problems(out, src, args.force)
+    problems += _output_problems(out_json, src, args.force, ours=bool(out_json and _is_ours(out_json)))
+    radius = None
+    if args.diameter is not None:
+        try:
+            radius = parse_quantity(args.diameter, "length") / 2
+            if radius <= 0:
+                raise QuantityError("expected a diameter greater than 0")
+        except QuantityError as err:
+            problems.append(f"--diameter: {err}")
+    if args.count < 1:
+        problems.append(f"--count {args.count}: expected at least 1")
+    try:
+        checked = check_drawing(src, spec=args.spec)
+        ref = find_span(checked, args.span, args.loop)
+        region = region_polygons(checked, args.region) if args.region else None
+    except FatalInput as err:
+        problems += err.problems
+    if problems:
+        for line in problems:
+            print(f"spanwise: {line}", file=sys.stderr)
+        return EXIT_FATAL
+    try:
+        found = suggest(checked, ref, radius_m=radius, side=Side(args.side), region=region, count=args.count)
+    except ValueError as err:
+        print(f"spanwise: --span {args.span}: {err}", file=sys.stderr)
+        return EXIT_FATAL
+    rows = [suggestion_dict(checked, s, k + 1) for k, s in enumerate(found)]
+    if out_json is not None:
+        _write_atomic(out_json, dumps({"schema": "spanwise-idlers/1", "drawing": str(src), "span": ref.span_id,
+                                       "loop": ref.loop_id, "suggestions": rows}))
+    if out is not None and found:
+        write_suggestions(checked, found, out)
+    if not found:
+        print(f"{src}: no position on span {ref.span_id} of loop {ref.loop_id} gives a valid idler", flush=True)
+        return EXIT_FINDINGS
+    units = checked.model.units
+    print(f"{src}: idler positions for span {ref.span_id} of loop {ref.loop_id} "
+          f"(pitch diameter {rows[0]['pitch_diameter_m'] * 1e3:.1f} mm, {args.side} side)")
+    print(f"  {'#':>2} {'centre (' + units + ')':>24} {'along':>6} {'push mm':>8} {'wrap':>6} {'hub N':>7} "
+          f"{'grip':>5} {'clear':>6} {'left':>4}  new spans f1 Hz")
+    for row in rows:
+        cx, cy = row["center"]
+        f1 = ", ".join(f"{k} {v['frequencies_hz'][0]:.1f}" for k, v in row["spans"].items())
+        print(f"  {row['rank']:>2} {f'({cx:.2f}, {cy:.2f})':>24} {row['along']:>6.2f} "
+              f"{row['deflection_m'] * 1e3:>8.2f} {row['wrap_deg']:>6.1f} {row['hub_load_n']:>7.0f} "
+              f"{row['worst_grip_utilisation']:>5.2f} {row['resonance_clearance']:>6.3f} "
+              f"{row['resonances_left']:>4}  {f1}")
+    print("  clear: smallest |excitation/f - 1| of the new spans over the speed range; left: their resonance bands")
+    return EXIT_OK if rows[0]["resonances_left"] == 0 else EXIT_FINDINGS
+
+
 def _catalog(args: argparse.Namespace) -> int:
     import math
 
@@ -170,6 +267,8 @@ def main(argv: list[str] | None = None) -> int:
             return _check(args)
         if args.command == "catalog":
             return _catalog(args)
+        if args.command == "suggest-idler":
+            return _suggest(args)
     except KeyboardInterrupt:
         print("spanwise: interrupted", file=sys.stderr)
         return EXIT_FATAL

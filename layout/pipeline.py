@@ -19,7 +19,7 @@ from .read import read_drawing
 from .route import Model, build_model
 from .spec import Spec, load_spec, spec_path_for
 
-__all__ = ["Checked", "check_drawing", "load_spec_for", "VERSION"]
+__all__ = ["Checked", "check_drawing", "load_spec_for", "options_for", "VERSION"]
 
 try:
     from importlib.metadata import version as _version
@@ -51,6 +51,20 @@ def load_spec_for(drawing: str | Path, spec: str | Path | None) -> tuple[Spec, s
     return Spec(), None
 
 
+def options_for(sp: Spec, *, grip_margin: float | None = None) -> Options:
+    """Analysis options from the spec (and the command line's grip margin)."""
+    defaults = Options()
+    return Options(
+        service_factor=sp.service_factor,
+        grip_margin=grip_margin or sp.grip_margin or GRIP_MARGIN,
+        modes=sp.modes or defaults.modes,
+        resonance_margin=sp.resonance_margin or defaults.resonance_margin,
+        near_critical=sp.near_critical or defaults.near_critical,
+        sag_limit=sp.sag_limit or defaults.sag_limit,
+        span_ends=sp.span_ends or defaults.span_ends,
+        gravity=sp.gravity)
+
+
 _ORDER = {Severity.ERROR: 0, Severity.WARNING: 1, Severity.NOTE: 2}
 
 
@@ -78,8 +92,7 @@ def check_drawing(path: str | Path, *, spec: str | Path | None = None,
     if sp is None:
         raise FatalInput(problems)
     model = build_model(drawing, sp)
-    options = Options(service_factor=sp.service_factor,
-                      grip_margin=grip_margin or sp.grip_margin or GRIP_MARGIN)
+    options = options_for(sp, grip_margin=grip_margin)
     results = analyse(model.drive, options)
     findings = list(model.findings)
     findings.extend(locate(model, results, f) for f in results.findings)

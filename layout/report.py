@@ -133,6 +133,18 @@ def report_dict(model: Model, results: Results, findings: list[Finding], *, vers
                     "static_tension_n": float(mech.static_quasi_static_n[k]),
                     "static_frequency_hz": float(mech.static_frequency_hz[k]),
                 })
+                dyn = mech.dynamics
+                if dyn is not None:
+                    row.update({
+                        "wave_speed_m_s": float(dyn.wave_speed_m_s[0, k]),
+                        "downstream_wave_m_s": float(dyn.downstream_m_s[0, k]),
+                        "upstream_wave_m_s": float(dyn.upstream_m_s[0, k]),
+                        "v_over_c": float(dyn.v_over_c[0, k]),
+                        "frequencies_hz": [float(f) for f in dyn.frequencies_hz[0, k]],
+                    })
+                    if dyn.sag_m is not None:
+                        row["sag_m"] = float(dyn.sag_m[k])
+                        row["static_sag_m"] = float(dyn.static_sag_m[k])
             spans.append(row)
         loop_belt = next(x for x in drive.loops if x.id == lp.id).belt
         row = {"id": lp.id, "length_m": None if g is None else g.length_m,
@@ -151,6 +163,8 @@ def report_dict(model: Model, results: Results, findings: list[Finding], *, vers
             stock = _stock_dict(model, lp, loop_belt, mech)
             if stock:
                 row["stock"] = stock
+            if mech.dynamics is not None and moved and mech.source_speed_rad_s.size > 1:
+                row["sweep"] = _sweep_dict(lp, mech)
         else:
             row["belt"] = _belt_dict(loop_belt, None)
         row["pulleys"] = pulleys
@@ -195,6 +209,19 @@ def _belt_dict(b: Any, mech: Any) -> dict[str, Any]:
             "axial_stiffness_n": b.axial_stiffness_n,
         })
     return out
+
+
+def _sweep_dict(lp: Any, mech: Any) -> dict[str, Any]:
+    """The speed sweep: source speeds, every span's frequencies and every excitation."""
+    dyn = mech.dynamics
+    n = len(lp.pulleys)
+    rows = slice(1, None)
+    return {
+        "speed_rpm": (mech.source_speed_rad_s[rows] * 30.0 / math.pi).tolist(),
+        "frequencies_hz": {f"{lp.pulleys[k]}-{lp.pulleys[(k + 1) % n]}": dyn.frequencies_hz[rows, k, :].tolist()
+                           for k in range(n)},
+        "excitations_hz": {name: x[rows].tolist() for name, x in dyn.excitations_hz.items()},
+    }
 
 
 def _stock_dict(model: Model, lp: Any, belt: Any, mech: Any) -> dict[str, Any]:

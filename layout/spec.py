@@ -42,7 +42,8 @@ PULLEY_KEYS: dict[str, str] = {
     "force_direction": "angle", "pivot": "point", "arm_torque": "torque",
 }
 TOP_KEYS = {"units", "belt_layers", "gravity", "service_factor", "keep_out_layers", "clearance",
-            "belt", "pulley", "route", "tolerances", "grip_margin"}
+            "belt", "pulley", "route", "tolerances", "grip_margin", "modes", "resonance_margin",
+            "near_critical", "sag_limit", "span_ends"}
 TOLERANCE_KEYS = {"join", "attach", "tangent_deg", "tangent_offset"}
 ROUTE_KEYS = {"pulleys", "back", "crossed"}
 
@@ -129,6 +130,11 @@ class Spec:
     gravity: tuple[float, float] | None = None  # unit vector in the drawing plane
     service_factor: float = 1.0
     grip_margin: float | None = None
+    modes: int | None = None
+    resonance_margin: float | None = None
+    near_critical: float | None = None
+    sag_limit: float | None = None
+    span_ends: str | None = None
     belt: BeltSpec = field(default_factory=BeltSpec)
     loop_belts: dict[str, BeltSpec] = field(default_factory=dict)   # lower-case loop id
     pulleys: dict[str, PulleySpec] = field(default_factory=dict)    # lower-case pulley id
@@ -376,14 +382,24 @@ def parse_spec(data: dict[str, Any], name: str) -> Spec:
         else:
             problems.append(f"{name}: gravity = {g!r}: expected a direction [x, y] in the drawing plane, "
                             f"e.g. [0, -1]")
-    for key in ("service_factor", "grip_margin"):
+    for key in ("service_factor", "grip_margin", "resonance_margin", "near_critical", "sag_limit"):
         if key in data:
             v = _value("number+", data[key], f"{name}: {key}", problems)
             if v is not None:
-                if key == "grip_margin" and v > 1:
-                    problems.append(f"{name}: grip_margin = {v}: expected a fraction in (0, 1]")
+                if key in ("grip_margin", "near_critical") and v > 1:
+                    problems.append(f"{name}: {key} = {v}: expected a fraction in (0, 1]")
                 else:
                     kw[key] = v
+    if "modes" in data:
+        v = _value("count", data["modes"], f"{name}: modes", problems)
+        if v is not None:
+            kw["modes"] = v
+    if "span_ends" in data:
+        e = data["span_ends"]
+        if e not in ("pinned", "clamped"):
+            problems.append(f"{name}: span_ends = {e!r}: expected 'pinned' or 'clamped'")
+        else:
+            kw["span_ends"] = e
     if "tolerances" in data:
         tol = data["tolerances"]
         if not isinstance(tol, dict):

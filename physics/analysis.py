@@ -20,20 +20,32 @@ from . import geometry as geo
 from . import tension as ten
 from .catalogue import find_section
 from .findings import Finding, Severity
+from . import spans as sp
 from .kinematics import Kinematics, loop_torques, solve_kinematics
 from .length import AdjustResult, nearest_stock, solve_adjust
 from .model import Drive, Loop, Role, Side
+from .resonance import RESONANCE_MARGIN, Band, find_bands
 
-__all__ = ["Options", "LoopMechanics", "LoopResult", "Results", "analyse", "loop_arrays",
-           "DEFAULT_FRICTION", "GRIP_MARGIN", "RANGE_POINTS", "FRICTION_NOTE_ABOVE"]
+__all__ = ["Options", "LoopMechanics", "SpanDynamics", "TensionRule", "LoopResult", "Results", "analyse",
+           "loop_arrays", "DEFAULT_FRICTION", "GRIP_MARGIN", "RANGE_POINTS", "FRICTION_NOTE_ABOVE",
+           "NEAR_CRITICAL", "SAG_LIMIT", "GRIP_STATES"]
 
 #: Flat friction used when neither the spec nor a section gives one: rubber on cast iron
 #: or steel, dry (common practice, from memory: 0.25 to 0.35 is used for design).
 DEFAULT_FRICTION = 0.3
 #: Default grip margin: install tension is sized so that no utilisation exceeds this.
 GRIP_MARGIN = 0.8
-#: Operating points over the speed range (plus the operating speed itself).
-RANGE_POINTS = 101
+#: Operating points over the speed range (plus the operating speed itself): the sweep.
+RANGE_POINTS = 200
+#: v/c above which a span is near its critical speed. Our choice: at v/c = 0.7 the span's
+#: frequencies have fallen to about half their value at rest (f ~ 1 - (v/c)**2 under
+#: constant tension), so small tension changes move them a lot.
+NEAR_CRITICAL = 0.7
+#: Sag (along gravity) over span length above which a finding is raised. Our choice,
+#: near the 1/64 in per inch of span (1.6 %) of the common force-deflection check.
+SAG_LIMIT = 0.02
+#: Span weight m g dh above this fraction of P is worth a note: the tension steps leave it out.
+SPAN_WEIGHT_NOTE = 0.05
 #: A groove friction derived as mu / sin(groove/2) above this is above the usual design
 #: value (0.5123 for V-belts, Shigley ch. 17, from memory): a note says so.
 FRICTION_NOTE_ABOVE = 0.6
@@ -50,7 +62,51 @@ class Options:
     service_factor: float = 1.0
     grip_margin: float = GRIP_MARGIN
     range_points: int = RANGE_POINTS
+    modes: int = 5
+    resonance_margin: float = RESONANCE_MARGIN
+    near_critical: float = NEAR_CRITICAL
+    sag_limit: float = SAG_LIMIT
+    span_ends: str = "pinned"
+    gravity: tuple[float, float] | None = None          # unit vector, drawing plane
 
+
+@dataclass(frozen=True, slots=True)
+class TensionRule:
+    """How a loop's tension level is set, so it can be re-evaluated at any speed.
+
+    ``P = level - mean(delta) - m v**2 + delta`` (fixed), ``level - mean(delta) + delta``
+    (constant), ``level - (delta[i-1] + delta[i]) / 2 + delta`` (tensioner at ``i``).
+    """
+
+    kind: str
+    level: float
+    weights: NDArray[np.float64]
+    mass_kg_m: float
+    index: int = -1
+
+    def apply(self, delta: NDArray[np.float64], speed_m_s: NDArray[np.float64]) -> NDArray[np.float64]:
+        if self.kind == "tensioner":
+            t = ten.Tensioner(self.index)
+            return ten.quasi_static_tension(delta, self.weights, tensioning="tensioner", install_tension_n=None,
+                                            mass_kg_m=self.mass_kg_m, speed_m_s=speed_m_s, tensioner=t,
+                                            tensioner_p_n=self.level)
+        return ten.quasi_static_tension(delta, self.weights, tensioning=self.kind, install_tension_n=self.level,
+                                        mass_kg_m=self.mass_kg_m, speed_m_s=speed_m_s)
+
+
+@dataclass(frozen=True, slots=True)
+class SpanDynamics:
+    """Moving-span results of one loop, rows as in :class:`LoopMechanics`, columns spans."""
+
+    wave_speed_m_s: NDArray[np.float64]          # (K, n) c = sqrt(T/m)
+    downstream_m_s: NDArray[np.float64]          # (K, n) v + c
+    upstream_m_s: NDArray[np.float64]            # (K, n) c - v
+    v_over_c: NDArray[np.float64]                # (K, n)
+    frequencies_hz: NDArray[np.float64]          # (K, n, modes)
+    excitations_hz: dict[str, NDArray[np.float64]]   # name -> (K,)
+    bands: tuple[Band, ...]
+    sag_m: NDArray[np.float64] | None = None          # (n,) at the operating speed
+    static_sag_m: NDArray[np.float64] | None = None   # (n,) at rest
 
 @dataclass(frozen=True, slots=True)
 class LoopMechanics:
@@ -85,6 +141,8 @@ class LoopMechanics:
     stock_nearest_m: tuple[float, ...] = ()
     unstretched_length_m: float | None = None
     adjust: tuple[str, AdjustResult] | None = None
+    rule: TensionRule | None = None
+    dynamics: SpanDynamics | None = None
 
 
 @dataclass(frozen=True, slots=True)
@@ -237,10 +295,7 @@ def _loop_mechanics(drive: Drive, loop: Loop, g: geo.LoopGeometry, kin: Kinemati
                                     f"setting within the grip margin, {min_install:.1f} N per strand",
                                     refs=(loop.id,), data={"install_tension_n": min_install}))
         level = install if install is not None else 0.0
-        P = ten.quasi_static_tension(delta, weights, tensioning=b.tensioning, install_tension_n=level,
-                                     mass_kg_m=mass, speed_m_s=speed)
-        P_sf = ten.quasi_static_tension(delta_sf, weights, tensioning=b.tensioning, install_tension_n=level,
-                                        mass_kg_m=mass, speed_m_s=speed)
+        rule = TensionRule(b.tensioning, level, weights, mass)
         static_P = np.full(n, level, dtype=float)
     else:
         i = tensioner.index
@@ -275,24 +330,26 @@ def _loop_mechanics(drive: Drive, loop: Loop, g: geo.LoopGeometry, kin: Kinemati
                                     f"at the lowest setting within the grip margin, {min_setting:.1f}",
                                     refs=(loop.id, pid)))
         p_t = (setting if setting is not None else 0.0) / (s * gain)
-        P = ten.quasi_static_tension(delta, weights, tensioning="tensioner", install_tension_n=None,
-                                     mass_kg_m=mass, speed_m_s=speed, tensioner=tensioner, tensioner_p_n=p_t)
-        P_sf = ten.quasi_static_tension(delta_sf, weights, tensioning="tensioner", install_tension_n=None,
-                                        mass_kg_m=mass, speed_m_s=speed, tensioner=tensioner, tensioner_p_n=p_t)
+        rule = TensionRule("tensioner", p_t, weights, mass, i)
         static_P = np.full(n, p_t, dtype=float)
         install = p_t
+    P = rule.apply(delta, speed)
+    P_sf = rule.apply(delta_sf, speed)
     if not active:
         # nothing sets or loads this belt: its tensions are unknown, not zero
         P = np.full_like(P, np.nan)
         P_sf = P
         static_P = np.full(n, np.nan)
         install = min_install = None
+        rule = None
     T = P + mass * (speed * speed)[:, None]
     util, state = ten.grip(P_sf, Q, mu, g.wrap_rad)
     hub = ten.hub_loads(P, g, s)
     static_hub = ten.hub_loads(static_P[None, :], g, s)[0]
-    freq = ten.static_frequency(static_P, mass, g.span_length_m, b.bending_stiffness_nm2) if m else \
-        np.full(n, np.nan)
+    # the field pluck check: the same span model at rest (string, or beam with EI)
+    freq = sp.span_frequencies(static_P, static_P, mass, g.span_length_m, 0.0, 1, bending_nm2=b.bending_stiffness_nm2,
+                               ends=opts.span_ends)[:, 0] if m else np.full(n, np.nan)
+    freq = np.where(static_P > 0, freq, np.nan)
     power = Q * np.abs(omega)
     # stock length and the adjustable pulley
     stretch = 1.0 + (install / b.axial_stiffness_n if (b.axial_stiffness_n and install) else 0.0)
@@ -315,9 +372,67 @@ def _loop_mechanics(drive: Drive, loop: Loop, g: geo.LoopGeometry, kin: Kinemati
                                     refs=(loop.id, pid)))
         else:
             adjust = (pid, res)
+    dynamics = None
+    if m and rule is not None:
+        dynamics = _dynamics(drive, loop, g, kin, rule, w_src, speed, omega, P, T, static_P, opts)
     return LoopMechanics(tensioning, w_src, speed, omega, Q, power, P, T, util, state, hub, static_P, static_hub,
                          freq, mu, mass, install, min_install, setting, min_setting,
-                         _effective_roles(drive, kin, loop), nearest, unstretched, adjust)
+                         _effective_roles(drive, kin, loop), nearest, unstretched, adjust, rule, dynamics)
+
+
+def _excitations(drive: Drive, loop: Loop, omega: NDArray[np.float64], speed: NDArray[np.float64],
+                 length_m: float) -> dict[str, NDArray[np.float64]]:
+    """Excitation frequencies (Hz) per operating point: each pulley's orders times its
+    rotation frequency, and the belt-pass frequency ``v / length``."""
+    out: dict[str, NDArray[np.float64]] = {}
+    for i, pid in enumerate(loop.pulleys):
+        for order in drive.pulleys[pid].orders:
+            out[f"{pid} x{order:g}"] = order * np.abs(omega[..., i]) / (2 * math.pi)
+    out["belt pass"] = np.abs(speed) / length_m
+    return out
+
+
+def _dynamics(drive: Drive, loop: Loop, g: geo.LoopGeometry, kin: Kinematics, rule: TensionRule,
+              w_src: NDArray[np.float64], speed: NDArray[np.float64], omega: NDArray[np.float64],
+              P: NDArray[np.float64], T: NDArray[np.float64], static_P: NDArray[np.float64],
+              opts: Options) -> SpanDynamics:
+    b = loop.belt
+    m = b.mass_per_length_kg_m
+    L = g.span_length_m
+    c, down, up = sp.wave_speeds(T, m, speed[:, None])
+    with np.errstate(invalid="ignore", divide="ignore"):
+        voc = np.abs(speed)[:, None] / c
+    freqs = sp.span_frequencies(P, T, m, L[None, :], speed[:, None], opts.modes, bending_nm2=b.bending_stiffness_nm2,
+                                ends=opts.span_ends)
+    exc = _excitations(drive, loop, omega, speed, g.length_m)
+    bands: tuple[Band, ...] = ()
+    lk = kin.loops.get(loop.id)
+    if lk is not None and kin.source_speed_rad_s is not None:
+        r = np.asarray([drive.pulleys[p].radius_m for p in loop.pulleys])
+
+        def evaluate(w: float) -> tuple[NDArray[np.float64], dict[str, float]]:
+            Q = loop_torques(drive, kin, np.array([w]))[0][loop.id]
+            v = np.array([lk.speed_per_source * w])
+            Pw = rule.apply(ten.tension_steps(Q, r, b.strands), v)
+            Tw = Pw + m * v[:, None] ** 2
+            f = sp.span_frequencies(Pw, Tw, m, L[None, :], v[:, None], opts.modes,
+                                    bending_nm2=b.bending_stiffness_nm2, ends=opts.span_ends)[0]
+            ex = _excitations(drive, loop, lk.omega_per_source[None, :] * w, v, g.length_m)
+            return f, {k: float(x[0]) for k, x in ex.items()}
+
+        sweep = slice(1, None) if w_src.size > 1 else slice(0, 1)
+        bands = tuple(find_bands(w_src[sweep], freqs[sweep], {k: x[sweep] for k, x in exc.items()}, evaluate,
+                                 margin=opts.resonance_margin))
+    sag = static_sag = None
+    if opts.gravity is not None:
+        chord = g.span_end_m - g.span_start_m
+        gv = np.asarray(opts.gravity, dtype=float)
+        side = np.array([gv[1], -gv[0]])
+        cosb = np.abs(chord @ side) / np.hypot(chord[:, 0], chord[:, 1])
+        weight = m * sp.G0
+        sag = sp.catenary_sag(chord, gv, weight, P[0] * cosb)
+        static_sag = sp.catenary_sag(chord, gv, weight, static_P * cosb)
+    return SpanDynamics(c, down, up, voc, freqs, exc, bands, sag, static_sag)
 
 
 def _loop_findings(drive: Drive, loop: Loop, mech: LoopMechanics, opts: Options, kin: Kinematics,
@@ -375,6 +490,60 @@ def _loop_findings(drive: Drive, loop: Loop, mech: LoopMechanics, opts: Options,
                                     f"{col[k]:.1f} N) at {at_rpm(k):.0f} rpm of the source",
                                     refs=(loop.id, sid),
                                     data={"speed_rpm": at_rpm(k), "quasi_static_tension_n": float(col[k])}))
+
+
+def _dynamics_findings(drive: Drive, loop: Loop, g: geo.LoopGeometry, mech: LoopMechanics, opts: Options,
+                       findings: list[Finding]) -> None:
+    """Near-critical spans, resonance bands and sag of one loop."""
+    dyn = mech.dynamics
+    if dyn is None:
+        return
+    n = len(loop.pulleys)
+    sids = [f"{loop.pulleys[k]}-{loop.pulleys[(k + 1) % n]}" for k in range(n)]
+    w = mech.source_speed_rad_s
+    for k in range(n):
+        col = np.where(np.isfinite(dyn.v_over_c[:, k]), dyn.v_over_c[:, k], -np.inf)
+        if (col > opts.near_critical).any() and (mech.quasi_static_n[:, k] > 0).all():
+            j = int(np.argmax(col))
+            findings.append(Finding(Severity.WARNING, "near-critical",
+                                    f"loop {loop.id}: span {sids[k]} runs at {col[j]:.2f} of its wave speed at "
+                                    f"{_rpm(w[j]):.0f} rpm of the source (above {opts.near_critical:g}); its "
+                                    f"frequencies have fallen to {1 - col[j] ** 2:.0%} of their value at rest",
+                                    refs=(loop.id, sids[k]),
+                                    data={"v_over_c": float(col[j]), "speed_rpm": _rpm(float(w[j]))}))
+    for band in dyn.bands:
+        sid = sids[band.span]
+        findings.append(Finding(
+            Severity.WARNING, "resonance",
+            f"loop {loop.id}: span {sid} mode {band.mode} meets {band.excitation} ({band.kind}) from "
+            f"{_rpm(band.speed_lo):.0f} to {_rpm(band.speed_hi):.0f} rpm of the source, "
+            f"crossing at {_rpm(band.crossing):.1f} rpm ({band.frequency_hz:.2f} Hz)",
+            refs=(loop.id, sid),
+            data={"speed_rpm": _rpm(band.crossing), "speed_range_rpm": [_rpm(band.speed_lo), _rpm(band.speed_hi)],
+                  "mode": band.mode, "kind": band.kind, "excitation": band.excitation,
+                  "frequency_hz": band.frequency_hz, "margin_left": band.margin_left}))
+    if dyn.sag_m is not None and opts.gravity is not None:
+        L = g.span_length_m
+        for k in range(n):
+            for label, sag in (("running", dyn.sag_m[k]), ("at rest", dyn.static_sag_m[k])):
+                if np.isfinite(sag) and sag > opts.sag_limit * L[k]:
+                    findings.append(Finding(Severity.WARNING, "sag",
+                                            f"loop {loop.id}: span {sids[k]} sags {sag * 1e3:.1f} mm {label}, "
+                                            f"{sag / L[k]:.1%} of its length (limit {opts.sag_limit:.1%})",
+                                            refs=(loop.id, sids[k]),
+                                            data={"sag_m": float(sag), "sag_ratio": float(sag / L[k]),
+                                                  "state": label}))
+                    break
+        gv = np.asarray(opts.gravity, dtype=float)
+        dh = np.abs((g.span_end_m - g.span_start_m) @ gv)
+        weight = mech.mass_kg_m * sp.G0 * dh
+        for k in range(n):
+            P0 = mech.quasi_static_n[0, k]
+            if np.isfinite(P0) and P0 > 0 and weight[k] > SPAN_WEIGHT_NOTE * P0:
+                findings.append(Finding(Severity.NOTE, "span-weight",
+                                        f"loop {loop.id}: span {sids[k]} weighs {weight[k]:.1f} N over its rise, "
+                                        f"over {SPAN_WEIGHT_NOTE:.0%} of its tension; the tension steps leave "
+                                        f"span weight out", refs=(loop.id, sids[k])))
 
 
 def _power_findings(drive: Drive, kin: Kinematics, results: dict[str, LoopResult],
@@ -446,6 +615,7 @@ def analyse(drive: Drive, options: Options = Options()) -> Results:
         if g is not None:
             mech = _loop_mechanics(drive, loop, g, kin, torques, w_src, options, findings)
             _loop_findings(drive, loop, mech, options, kin, findings)
+            _dynamics_findings(drive, loop, g, mech, options, findings)
         loops[loop.id] = LoopResult(loop, g, mech)
     _power_findings(drive, kin, loops, findings)
     return Results(drive, loops, findings, kin, options)
