@@ -32,8 +32,10 @@ __all__ = ["wave_speeds", "string_frequencies", "beam_frequencies", "span_freque
 
 #: Standard gravity, m/s^2 (CGPM 1901).
 G0 = 9.80665
-#: Basis functions of the Galerkin solution per span.
-GALERKIN_TERMS = 16
+#: Basis functions of the Galerkin solution per span, beyond twice the modes wanted:
+#: 2 * modes + 4 terms give the fifth mode to 5e-5 at v/c = 0.85 (checked against 40 terms).
+GALERKIN_EXTRA = 4
+GALERKIN_TERMS = 2 * 5 + GALERKIN_EXTRA
 
 
 def wave_speeds(tension_n: ArrayLike, mass_kg_m: float, speed_m_s: ArrayLike
@@ -112,14 +114,16 @@ def _basis(ends: str, terms: int) -> tuple[NDArray[np.float64], ...]:
     R = np.linalg.cholesky(M)
     Ri = np.linalg.inv(R)
     G = Ri @ G @ Ri.T
-    K1 = Ri @ K1 @ Ri.T
-    K2 = Ri @ K2 @ Ri.T
-    return G, 0.5 * (K1 + K1.T), 0.5 * (K2 + K2.T)
+    K1 = 0.5 * (Ri @ K1 @ Ri.T + (Ri @ K1 @ Ri.T).T)
+    K2 = 0.5 * (Ri @ K2 @ Ri.T + (Ri @ K2 @ Ri.T).T)
+    # buckling: P K1 + EI K2 stays positive while P > -EI * lam_star / L**2
+    lam_star = float(np.min(np.real(np.linalg.eigvals(np.linalg.solve(K1, K2)))))
+    return G, K1, K2, lam_star
 
 
 def beam_frequencies(quasi_static_n: ArrayLike, mass_kg_m: float, length_m: ArrayLike,
                      bending_nm2: float, speed_m_s: ArrayLike, modes: int = 5, *,
-                     ends: str = "pinned", terms: int = GALERKIN_TERMS) -> NDArray[np.float64]:
+                     ends: str = "pinned", terms: int | None = None) -> NDArray[np.float64]:
     """Natural frequencies of axially moving tensioned beams by Galerkin's method, Hz.
 
     Parameters broadcast together (e.g. ``(K, n)`` operating points by spans); the result
@@ -137,22 +141,24 @@ def beam_frequencies(quasi_static_n: ArrayLike, mass_kg_m: float, length_m: Arra
     v = np.asarray(speed_m_s, dtype=float)
     P, L, v = np.broadcast_arrays(P, L, v)
     shape = P.shape
+    terms = terms or 2 * max(modes, 5) + GALERKIN_EXTRA
     Pf, Lf, vf = P.reshape(-1), L.reshape(-1), v.reshape(-1)
-    G, K1, K2 = _basis(ends, terms)
+    G, K1, K2, lam_star = _basis(ends, terms)
     out = np.zeros((Pf.size, modes))
     if Pf.size == 0:
         return out.reshape(*shape, modes)
-    S2 = (Pf / (mass_kg_m * Lf**2))[:, None, None] * K1 + (bending_nm2 / (mass_kg_m * Lf**4))[:, None, None] * K2
-    lam, vec = np.linalg.eigh(S2)
-    ok = np.isfinite(lam).all(axis=1) & (lam.min(axis=1) > 0)
+    # positive stiffness (not buckled, not slack beyond what bending carries)
+    ok = np.isfinite(Pf) & np.isfinite(Lf) & (Pf > -bending_nm2 * lam_star / Lf**2 * (1 - 1e-9))
     if ok.any():
-        lam_ok = lam[ok]
-        vec_ok = vec[ok]
-        S = (vec_ok * np.sqrt(lam_ok)[:, None, :]) @ np.swapaxes(vec_ok, 1, 2)
-        g = (2.0 * vf[ok] / Lf[ok])[:, None, None]
-        H = np.zeros((S.shape[0], 2 * terms, 2 * terms), dtype=complex)
-        H[:, :terms, terms:] = S
-        H[:, terms:, :terms] = S
+        P_ok, L_ok = Pf[ok], Lf[ok]
+        S2 = (P_ok / (mass_kg_m * L_ok**2))[:, None, None] * K1 + \
+            (bending_nm2 / (mass_kg_m * L_ok**4))[:, None, None] * K2
+        # any F with F^T F = S2 linearises the problem; the Cholesky factor is the cheapest
+        F = np.swapaxes(np.linalg.cholesky(S2), 1, 2)
+        g = (2.0 * vf[ok] / L_ok)[:, None, None]
+        H = np.zeros((F.shape[0], 2 * terms, 2 * terms), dtype=complex)
+        H[:, :terms, terms:] = F
+        H[:, terms:, :terms] = np.swapaxes(F, 1, 2)
         H[:, terms:, terms:] = -1j * g * G[None, :, :]
         w = np.linalg.eigvalsh(H)
         w = w[:, terms:]                          # the positive half, ascending

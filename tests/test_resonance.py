@@ -134,3 +134,21 @@ def test_sweep_in_the_report(tmp):
     c = span["wave_speed_m_s"]
     v = lp["speed_m_s"]
     assert span["downstream_wave_m_s"] == pytest.approx(c + v) and span["upstream_wave_m_s"] == pytest.approx(c - v)
+
+
+def test_campbell_figure_draws_the_sweep(tmp):
+    from layout.figures import campbell_figure, tension_figure, to_svg
+    path = _drawing(tmp, "drive", [(0.0, 0.0), (1000.0, 0.0)], [50.0, 100.0], [1, 1])
+    checked = check_drawing(path)
+    mech = checked.results.loops["BELT"].mechanics
+    fig = campbell_figure(checked.results, "BELT")
+    lines = {ln.get_gid(): ln for ln in fig.axes[0].get_lines()}
+    # every span mode and every excitation is a line holding exactly the sweep's numbers
+    assert np.allclose(lines["span A-B mode 1"].get_ydata(), mech.dynamics.frequencies_hz[1:, 0, 0])
+    assert np.allclose(lines["excitation A x1"].get_ydata(), mech.dynamics.excitations_hz["A x1"][1:])
+    assert len([g for g in lines if g.startswith("span")]) == 2 * 5
+    svg = to_svg(fig)
+    assert svg.lstrip().startswith("<?xml") and "<svg" in svg
+    fig2 = tension_figure(checked.results, "BELT")
+    assert np.allclose(fig2.axes[0].get_lines()[0].get_ydata(), mech.quasi_static_n[1:, 0])
+    to_svg(fig2)

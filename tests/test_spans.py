@@ -161,3 +161,38 @@ def test_shigley_flat_belt_dip():
     dyn = res.loops["V"].mechanics.dynamics
     # the spans are 2 deg off level and a little shorter than C: the dip is within 1 %
     assert dyn.static_sag_m / 0.0254 == pytest.approx([0.1395, 0.1395], rel=1e-2)
+
+
+def _unloaded(v_over_c: float, t0=300.0, m=0.1, tensioning="fixed", gravity=None, length=0.6) -> object:
+    # fixed centres, no load: P = T0 - m v^2, T = T0: v/c = v / sqrt(T0/m)
+    v = v_over_c * math.sqrt(t0 / m)
+    a = Pulley("A", (0.0, 0.0), 0.05, Role.DRIVER, speed_rad_s=v / 0.05, direction=1)
+    b = Pulley("B", (length, 0.0), 0.05, Role.IDLER)
+    belt = Belt(mass_per_length_kg_m=m, friction=0.3, install_tension_n=t0, tensioning=tensioning)
+    d = Drive({"A": a, "B": b}, (Loop("V", ("A", "B"), (1, 1), (Side.INSIDE,) * 2, (False,) * 2, belt),))
+    return analyse(d, Options(gravity=gravity))
+
+
+def test_near_critical_threshold():
+    # default threshold 0.7 (our choice, see physics.analysis.NEAR_CRITICAL)
+    assert "near-critical" not in [f.code for f in _unloaded(0.65).findings]
+    res = _unloaded(0.75)
+    f = next(f for f in res.findings if f.code == "near-critical")
+    assert f.data["v_over_c"] == pytest.approx(0.75, rel=1e-9)
+    # the string's frequency there is P/(2L sqrt(mT)) = f0 (1 - (v/c)^2) under T = T0
+    dyn = res.loops["V"].mechanics.dynamics
+    L = 0.6
+    f0 = math.sqrt(300.0 / 0.1) / (2 * L)
+    assert dyn.frequencies_hz[0, 0, 0] == pytest.approx(f0 * (1 - 0.75**2), rel=1e-9)
+
+
+def test_sag_finding_and_value():
+    # a long, slack-ish span under gravity: the report's sag is the catenary's with H = P
+    res = _unloaded(0.2, t0=20.0, m=0.3, gravity=(0.0, -1.0), length=3.0)
+    dyn = res.loops["V"].mechanics.dynamics
+    P = res.loops["V"].mechanics.quasi_static_n[0, 0]
+    chord = res.loops["V"].geometry.span_end_m[0] - res.loops["V"].geometry.span_start_m[0]
+    assert dyn.sag_m[0] == pytest.approx(sp.catenary_sag(chord, [0, -1], 0.3 * 9.80665, P), rel=1e-12)
+    assert dyn.sag_m[0] == pytest.approx(0.3 * 9.80665 * 3.0**2 / (8 * P), rel=2e-2)      # parabola, small sag
+    assert "sag" in [f.code for f in res.findings]
+    assert dyn.static_sag_m[0] < dyn.sag_m[0]          # at rest P = T0 is higher than running P
