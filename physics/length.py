@@ -13,9 +13,15 @@ from dataclasses import dataclass
 
 import numpy as np
 from numpy.typing import ArrayLike
-from scipy.optimize import brentq
 
 from .geometry import GeometryError, loop_geometry, open_belt
+
+def brentq(*args, **kwargs):  # noqa: ANN002, ANN003, ANN201
+    """scipy's Brent method, imported on first use (scipy.optimize costs 0.4 s to import)."""
+    from scipy.optimize import brentq as _brentq
+
+    return _brentq(*args, **kwargs)
+
 
 __all__ = ["nearest_stock", "AdjustResult", "solve_adjust", "center_distance_exact",
            "center_distance_approx", "INSTALL_ALLOWANCE", "TAKE_UP_ALLOWANCE"]

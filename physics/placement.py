@@ -22,7 +22,6 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 from numpy.typing import NDArray
-from scipy.optimize import minimize
 
 from . import geometry as geo
 from .analysis import Options, Results, analyse
@@ -257,6 +256,8 @@ def suggest_idler(drive: Drive, loop_id: str, span_index: int, radius_m: float, 
             if not shapely.contains_xy(polys_ok, ctr[0], ctr[1]):
                 return 1e9
         return score(candidate(ctr))
+
+    from scipy.optimize import minimize
 
     found: list[IdlerSuggestion] = []
     for _, x0 in scored[: max(3 * count, 6)]:

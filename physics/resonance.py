@@ -19,7 +19,13 @@ from typing import Callable
 
 import numpy as np
 from numpy.typing import NDArray
-from scipy.optimize import brentq
+
+def brentq(*args, **kwargs):  # noqa: ANN002, ANN003, ANN201
+    """scipy's Brent method, imported on first use (scipy.optimize costs 0.4 s to import)."""
+    from scipy.optimize import brentq as _brentq
+
+    return _brentq(*args, **kwargs)
+
 
 __all__ = ["Band", "find_bands", "RESONANCE_MARGIN", "KINDS"]
 
