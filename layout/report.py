@@ -145,6 +145,9 @@ def report_dict(model: Model, results: Results, findings: list[Finding], *, vers
                     if dyn.sag_m is not None:
                         row["sag_m"] = float(dyn.sag_m[k])
                         row["static_sag_m"] = float(dyn.static_sag_m[k])
+                        row["sag_ratio"] = float(dyn.sag_m[k]) / float(g.span_length_m[k])
+                        row["parabolic_sag_m"] = float(dyn.parabolic_sag_m[k])
+                        row["static_parabolic_sag_m"] = float(dyn.static_parabolic_sag_m[k])
             spans.append(row)
         loop_belt = next(x for x in drive.loops if x.id == lp.id).belt
         row = {"id": lp.id, "length_m": None if g is None else g.length_m,

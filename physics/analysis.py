@@ -105,8 +105,10 @@ class SpanDynamics:
     frequencies_hz: NDArray[np.float64]          # (K, n, modes)
     excitations_hz: dict[str, NDArray[np.float64]]   # name -> (K,)
     bands: tuple[Band, ...]
-    sag_m: NDArray[np.float64] | None = None          # (n,) at the operating speed
-    static_sag_m: NDArray[np.float64] | None = None   # (n,) at rest
+    sag_m: NDArray[np.float64] | None = None          # (n,) at the operating speed, catenary
+    static_sag_m: NDArray[np.float64] | None = None   # (n,) at rest, catenary
+    parabolic_sag_m: NDArray[np.float64] | None = None          # (n,) w L^2 / 8P
+    static_parabolic_sag_m: NDArray[np.float64] | None = None
 
 @dataclass(frozen=True, slots=True)
 class LoopMechanics:
@@ -423,7 +425,7 @@ def _dynamics(drive: Drive, loop: Loop, g: geo.LoopGeometry, kin: Kinematics, ru
         sweep = slice(1, None) if w_src.size > 1 else slice(0, 1)
         bands = tuple(find_bands(w_src[sweep], freqs[sweep], {k: x[sweep] for k, x in exc.items()}, evaluate,
                                  margin=opts.resonance_margin))
-    sag = static_sag = None
+    sag = static_sag = para = static_para = None
     if opts.gravity is not None:
         chord = g.span_end_m - g.span_start_m
         gv = np.asarray(opts.gravity, dtype=float)
@@ -432,7 +434,10 @@ def _dynamics(drive: Drive, loop: Loop, g: geo.LoopGeometry, kin: Kinematics, ru
         weight = m * sp.G0
         sag = sp.catenary_sag(chord, gv, weight, P[0] * cosb)
         static_sag = sp.catenary_sag(chord, gv, weight, static_P * cosb)
-    return SpanDynamics(c, down, up, voc, freqs, exc, bands, sag, static_sag)
+        chord_len = np.hypot(chord[:, 0], chord[:, 1])
+        para = sp.parabolic_sag(weight, chord_len, P[0])
+        static_para = sp.parabolic_sag(weight, chord_len, static_P)
+    return SpanDynamics(c, down, up, voc, freqs, exc, bands, sag, static_sag, para, static_para)
 
 
 def _loop_findings(drive: Drive, loop: Loop, mech: LoopMechanics, opts: Options, kin: Kinematics,

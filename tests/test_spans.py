@@ -196,3 +196,23 @@ def test_sag_finding_and_value():
     assert dyn.sag_m[0] == pytest.approx(0.3 * 9.80665 * 3.0**2 / (8 * P), rel=2e-2)      # parabola, small sag
     assert "sag" in [f.code for f in res.findings]
     assert dyn.static_sag_m[0] < dyn.sag_m[0]          # at rest P = T0 is higher than running P
+
+
+def test_sag_fields_in_the_report(tmp):
+    from conftest import add_drive, new_doc, save
+    from test_findings import run_cli
+    doc = new_doc("mm")
+    add_drive(doc.modelspace(), [(0.0, 0.0), (2000.0, 600.0)], [80.0, 80.0], [1, 1], "polyline")
+    path = save(doc, tmp)
+    (tmp / "drive.spanwise.toml").write_text('gravity = [0, -1]\n[belt]\nmass_per_length = "0.2 kg/m"\n'
+                                             'friction = 0.3\ninstall_tension = "150 N"\n')
+    r = run_cli("check", path, "--json", tmp / "r.json")
+    assert r.returncode == 0, r.stderr
+    import json
+    span = json.loads((tmp / "r.json").read_text())["loops"][0]["spans"][0]
+    # inclined span at rest, no speed source: catenary and parabola agree for small sag,
+    # the parabola w L^2 / 8P measured along gravity at any incline (design, "Mechanics")
+    L = span["length_m"]
+    assert span["static_parabolic_sag_m"] == pytest.approx(0.2 * 9.80665 * L**2 / (8 * 150.0), rel=1e-12)
+    assert span["static_sag_m"] == pytest.approx(span["static_parabolic_sag_m"], rel=1e-2)
+    assert span["sag_ratio"] == pytest.approx(span["sag_m"] / L)
