@@ -304,7 +304,7 @@ def recognize_paths(d: Drawing, *, tol: Tolerances = Tolerances(),
     partner = np.full(m, -1, dtype=np.int64)
     link_kind: dict[int, tuple[str, int]] = {}
     branch_at: list[int] = []
-    for cl, es in members.items():
+    for es in members.values():
         if len(es) == 2:
             partner[es[0]], partner[es[1]] = es[1], es[0]
             link_kind[es[0]] = link_kind[es[1]] = ("join", -1)

@@ -147,7 +147,7 @@ def solve_kinematics(drive: Drive) -> Kinematics:
     for lid in order:
         lk = loops[lid]
         down = []
-        for i, p in enumerate(lk.loop.pulleys):
+        for p in lk.loop.pulleys:
             k = shaft[p]
             down.append(tuple(x for x in feeds.get(k, []) if x != lid and order.index(x) > order.index(lid)))
         loops[lid] = LoopKinematics(lk.loop, lk.driver, lk.omega_per_source, lk.speed_per_source, tuple(down))

@@ -90,7 +90,7 @@ def resonance_distance(results: Results, loop_id: str, spans: list[int] | None =
 
 
 def _inside_sense(g: geo.LoopGeometry, loop: Loop, drive: Drive) -> int:
-    c = np.asarray([drive.pulleys[p].center_m for p in loop.pulleys])
+    """+1 where the loop runs counter-clockwise (its inside on the left of each span)."""
     r = np.asarray([drive.pulleys[p].radius_m for p in loop.pulleys])
     return 1 if geo.path_area(g, r, loop.turns) > 0 else -1
 
@@ -166,7 +166,7 @@ def suggest_idler(drive: Drive, loop_id: str, span_index: int, radius_m: float, 
                np.asarray([drive.pulleys[p].radius_m for p in loop.pulleys]), np.asarray(loop.turns, float))
     g = geo.loop_geometry(c, r, t)
     sense = _inside_sense(g, loop, drive)
-    S, E = g.span_start_m[span_index], g.span_end_m[span_index]
+    S = g.span_start_m[span_index]
     u = g.span_dir[span_index]
     length = float(g.span_length_m[span_index])
     n_in = sense * np.array([-u[1], u[0]])               # towards the inside of the loop

@@ -7,7 +7,6 @@ forms, which tests/test_geometry.py checks against the book's worked example.
 
 from __future__ import annotations
 
-import math
 from pathlib import Path
 
 import pytest

@@ -3,14 +3,13 @@
 from __future__ import annotations
 
 import math
-from pathlib import Path
 
 import numpy as np
 import pytest
 
 from conftest import add_drive, new_doc, save
 from layout.draw import add_belt_path, path_pieces
-from layout.errors import FatalInput, SpecError
+from layout.errors import SpecError
 from layout.pipeline import check_drawing
 from layout.read import read_drawing
 from physics import geometry as geo
