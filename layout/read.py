@@ -64,6 +64,8 @@ class Circles:
     layer: list[str]
     handle: list[str]          # the entity's handle; inside a block "INSERT/ENTITY"
     owner: list[str]           # handle of the top-level block reference, or ""
+    order: NDArray[np.int64] = field(default_factory=lambda: np.zeros(0, np.int64))
+    """Drawing order: position in model space of the entity (or of its block reference)."""
 
     def __len__(self) -> int:
         return int(self.x.shape[0])
@@ -91,6 +93,8 @@ class Segments:
     layer: list[str]
     handle: list[str]
     kind: list[str]
+    order: NDArray[np.int64] = field(default_factory=lambda: np.zeros(0, np.int64))
+    """Drawing order: position in model space of the entity (or of its block reference)."""
 
     def __len__(self) -> int:
         return int(self.x0.shape[0])
@@ -238,11 +242,14 @@ class _Collector:
         self.c_layer: list[str] = []
         self.c_handle: list[str] = []
         self.c_owner: list[str] = []
+        self.c_order: list[int] = []
         self.s: list[list[float]] = [[], [], [], [], [], [], [], []]   # x0 y0 x1 y1 cx cy r sweep
         self.s_group: list[int] = []
         self.s_layer: list[str] = []
         self.s_handle: list[str] = []
         self.s_kind: list[str] = []
+        self.s_order: list[int] = []
+        self.current_order = 0
         self.t: list[list[float]] = [[], []]
         self.t_text: list[str] = []
         self.t_layer: list[str] = []
@@ -258,6 +265,7 @@ class _Collector:
         self.c_layer.append(layer)
         self.c_handle.append(handle)
         self.c_owner.append(owner)
+        self.c_order.append(self.current_order)
 
     def seg(self, p0: tuple[float, float], p1: tuple[float, float], cx: float, cy: float,
             r: float, sweep: float, group: int, layer: str, handle: str, kind: str) -> None:
@@ -274,6 +282,7 @@ class _Collector:
         self.s_layer.append(layer)
         self.s_handle.append(handle)
         self.s_kind.append(kind)
+        self.s_order.append(self.current_order)
 
     def text(self, x: float, y: float, text: str, layer: str, handle: str) -> None:
         self.t[0].append(x)
@@ -442,7 +451,7 @@ def _matrix(insert: Any) -> NDArray[np.float64]:
 
 
 def _expand(target: _Collector, local: _Collector, mats: NDArray[np.float64], owners: list[str],
-            layers: list[str], names: list[str]) -> None:
+            layers: list[str], names: list[str], orders: list[int]) -> None:
     """Append ``local`` primitives transformed by each 4x4 row-vector matrix in ``mats``.
 
     Vectorised over the block references: one numpy operation per array, whatever the
@@ -464,6 +473,7 @@ def _expand(target: _Collector, local: _Collector, mats: NDArray[np.float64], ow
     flip = np.where(det < 0, -1.0, 1.0)
     own = np.asarray(owners, dtype=object)
     ins_layer = np.asarray(layers, dtype=object)
+    ins_order = np.asarray(orders, dtype=np.int64)
 
     def xf(x: list[float], y: list[float]) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
         xa = np.asarray(x, dtype=float)
@@ -499,6 +509,7 @@ def _expand(target: _Collector, local: _Collector, mats: NDArray[np.float64], ow
         target.c_layer.extend(lay)
         target.c_handle.extend(hnd)
         target.c_owner.extend(ownr)
+        target.c_order.extend(np.broadcast_to(ins_order[:, None], mask.shape)[mask].tolist())
     if local.s_handle:
         X0, Y0 = xf(local.s[0], local.s[1])
         X1, Y1 = xf(local.s[2], local.s[3])
@@ -520,6 +531,7 @@ def _expand(target: _Collector, local: _Collector, mats: NDArray[np.float64], ow
         target.s_layer.extend(lay)
         target.s_handle.extend(hnd)
         target.s_kind.extend(np.broadcast_to(np.asarray(local.s_kind, dtype=object)[None, :], mask.shape)[mask].tolist())
+        target.s_order.extend(np.broadcast_to(ins_order[:, None], mask.shape)[mask].tolist())
     if local.t_handle:
         X, Y = xf(local.t[0], local.t[1])
         mask = np.broadcast_to(planar[:, None], X.shape)
@@ -536,8 +548,13 @@ def _flatten(doc: Any) -> tuple[_Collector, list[AttribSet]]:
     msp = doc.modelspace()
     top = _Collector()
     inserts: list[Any] = []
-    for e in msp:
+    insert_order: dict[int, int] = {}
+    for k, e in enumerate(msp):
+        top.current_order = k
+        before = len(inserts)
         _collect_entity(top, e, inserts)
+        if len(inserts) > before:
+            insert_order[id(inserts[-1])] = k
     cache: dict[str, _Collector] = {}
     attribs: list[AttribSet] = []
 
@@ -562,26 +579,27 @@ def _flatten(doc: Any) -> tuple[_Collector, list[AttribSet]]:
         return col
 
     def _expand_inserts(target: _Collector, ins_list: list[Any], stack: tuple[str, ...]) -> None:
-        by_block: dict[str, list[tuple[NDArray[np.float64], str, str]]] = defaultdict(list)
+        by_block: dict[str, list[tuple[NDArray[np.float64], str, str, int]]] = defaultdict(list)
         for ins in ins_list:
             name = ins.dxf.name
             handle = ins.dxf.handle or ""
             layer = ins.dxf.layer
+            order = insert_order.get(id(ins), 0)
             try:
                 if ins.mcount > 1:
                     for vi in ins.multi_insert():
-                        by_block[name].append((_matrix(vi), handle, layer))
+                        by_block[name].append((_matrix(vi), handle, layer, order))
                 else:
-                    by_block[name].append((_matrix(ins), handle, layer))
+                    by_block[name].append((_matrix(ins), handle, layer, order))
             except Exception as err:   # a broken reference must not end the run
                 log.warning("INSERT #%s of block %r skipped: %s", handle, name, err)
         for name, items in by_block.items():
             local = block_collector(name, stack)
             if local.count == 0 and not local.c_handle and not local.s_handle and not local.t_handle:
                 continue
-            mats = np.stack([m for m, _, _ in items])
-            _expand(target, local, mats, [h for _, h, _ in items], [lay for _, _, lay in items],
-                    [name] * len(items))
+            mats = np.stack([m for m, _, _, _ in items])
+            _expand(target, local, mats, [h for _, h, _, _ in items], [lay for _, _, lay, _ in items],
+                    [name] * len(items), [o for _, _, _, o in items])
 
     _expand_inserts(top, inserts, ())
     for ins in inserts:
@@ -625,10 +643,11 @@ def read_drawing(path: str | Path) -> Drawing:
             gc.enable()
     findings.extend(col.findings)
     circles = Circles(np.asarray(col.c[0], float), np.asarray(col.c[1], float),
-                      np.asarray(col.c[2], float), col.c_layer, col.c_handle, col.c_owner)
+                      np.asarray(col.c[2], float), col.c_layer, col.c_handle, col.c_owner,
+                      np.asarray(col.c_order, np.int64))
     s = col.s
     segments = Segments(*(np.asarray(a, float) for a in s), np.asarray(col.s_group, np.int64),
-                        col.s_layer, col.s_handle, col.s_kind)
+                        col.s_layer, col.s_handle, col.s_kind, np.asarray(col.s_order, np.int64))
     texts = Texts(np.asarray(col.t[0], float), np.asarray(col.t[1], float), col.t_text,
                   col.t_layer, col.t_handle)
     return Drawing(path=p, sha256=hashlib.sha256(data).hexdigest(), version=version or dxfversion,

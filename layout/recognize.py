@@ -449,7 +449,7 @@ def recognize_paths(d: Drawing, *, tol: Tolerances = Tolerances(),
     for ch in chains:
         for w in ch.wraps:
             w.circle = int(keep[w.circle])
-    chains.sort(key=lambda ch: ch.order)
+    chains.sort(key=lambda ch: (int(S.order[ch.order]) if len(S.order) else 0, ch.order))
     return Recognition(chains, alias, findings)
 
 
@@ -546,7 +546,8 @@ def _assemble(walk: list[tuple[int, bool]], links: list[tuple[str, int, int, int
     # gaps inside drawn wraps: a link round a circle next to an arc on it
     for kind_elems in _wrap_links_beside_arcs(elems):
         gaps.append(kind_elems)
-    chain = Chain(wraps, spans, [s for s, _ in walk], "", min(s for s, _ in walk))
+    chain = Chain(wraps, spans, [s for s, _ in walk], "",
+                  min((int(S.order[s]) if len(S.order) else s, s) for s, _ in walk)[1])
     for a, b in gaps:
         size = math.hypot(a[0] - b[0], a[1] - b[1])
         chain.findings.append(Finding(

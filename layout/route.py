@@ -337,7 +337,7 @@ def build_model(d: Drawing, spec: Spec) -> Model:
     # automatic ids for wrapped circles without a name, in drawing order
     used = {v.lower() for v in by_id}
     counter = 0
-    for circle in sorted(wrapped):
+    for circle in sorted(wrapped, key=lambda c: (int(circ.order[c]), c)):
         if circle in names and names[circle][0]:
             continue
         while True:
@@ -533,7 +533,7 @@ def _drawn_loop(lid: str, ch: Chain, d: Drawing, id_of_circle: dict[int, str],
     turns = [w.turn for w in ch.wraps]
     centers = np.asarray([to_m((circ.x[w.circle], circ.y[w.circle])) for w in ch.wraps])
     radii = np.asarray([w.radius for w in ch.wraps]) * factor
-    first = int(np.argmin([w.circle for w in ch.wraps]))
+    first = min(range(len(ch.wraps)), key=lambda i: (int(circ.order[ch.wraps[i].circle]), ch.wraps[i].circle))
     findings: list[Finding] = list(ch.findings)
     try:
         reverse, crossed, g = _orient(turns, centers, radii, first)
@@ -546,7 +546,7 @@ def _drawn_loop(lid: str, ch: Chain, d: Drawing, id_of_circle: dict[int, str],
     ids = [id_of_circle[w.circle] for w in ch.wraps]
     start = next((i for i, p in enumerate(ids) if records[p].values.get("role") == "driver"), None)
     if start is None:
-        start = int(np.argmin([w.circle for w in ch.wraps]))
+        start = min(range(len(ch.wraps)), key=lambda i: (int(circ.order[ch.wraps[i].circle]), ch.wraps[i].circle))
     ch = ch.rotated(start)
     turns = [w.turn for w in ch.wraps]
     ids = [id_of_circle[w.circle] for w in ch.wraps]

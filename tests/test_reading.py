@@ -291,3 +291,18 @@ def test_travel_follows_the_speed_source_through_a_shared_shaft(tmp):
     checked = check_drawing(path)
     assert "direction-assumed" in _codes(checked)
     assert checked.model.loops[0].turns == [1, 1]
+
+
+def test_automatic_ids_follow_drawing_order_through_block_references(tmp):
+    # model space holds: the big pulley as a block reference, then the small one as a
+    # CIRCLE; unlabelled pulleys are numbered in the order entities are stored (design)
+    doc = new_doc("mm")
+    blk = doc.blocks.new("SHEAVE")
+    blk.add_circle((0, 0), D / 2)
+    msp = doc.modelspace()
+    msp.add_blockref("SHEAVE", (0, 0))
+    msp.add_circle((C, 0), d / 2)
+    add_belt_path(msp, [(0, 0), (C, 0)], [D / 2, d / 2], [1, 1], form="spans")
+    checked = check_drawing(save(doc, tmp))
+    p = checked.model.drive.pulleys
+    assert p["P1"].radius_m == pytest.approx(0.2) and p["P2"].radius_m == pytest.approx(0.05)
