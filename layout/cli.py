@@ -272,6 +272,13 @@ def main(argv: list[str] | None = None) -> int:
     except KeyboardInterrupt:
         print("spanwise: interrupted", file=sys.stderr)
         return EXIT_FATAL
+    except Exception as err:  # a bug of ours: one line, not a traceback (SPANWISE_DEBUG=1 shows it)
+        if os.environ.get("SPANWISE_DEBUG"):
+            raise
+        where = getattr(args, "drawing", "")
+        print(f"spanwise: internal error while working on {where}: {type(err).__name__}: {err} "
+              f"(set SPANWISE_DEBUG=1 for details, and please report it with the drawing)", file=sys.stderr)
+        return EXIT_FATAL
     return EXIT_FATAL
 
 
