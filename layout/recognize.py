@@ -325,23 +325,9 @@ def recognize_paths(d: Drawing, *, tol: Tolerances = Tolerances(),
             if abs(sin_t) >= 0.5:          # not a radial line (centre marks, leaders)
                 by_circle[c].append(e)
     for c, es in by_circle.items():
-        ang = {e: math.atan2(P[e, 1] - cy[c], P[e, 0] - cx[c]) for e in es}
-        sgn = {e: 1 if ((P[e, 0] - cx[c]) * T[e, 1] - (P[e, 1] - cy[c]) * T[e, 0]) > 0 else -1 for e in es}
-        plus = sorted((e for e in es if sgn[e] > 0), key=lambda e: ang[e])
-        minus = [e for e in es if sgn[e] < 0]
-        used: set[int] = set()
-        for e in plus:
-            best, best_da = -1, math.inf
-            for f in minus:
-                if f in used or f // 2 == e // 2:
-                    continue
-                da = (ang[f] - ang[e]) % (2 * math.pi)
-                if da < best_da:
-                    best, best_da = f, da
-            if best >= 0:
-                used.add(best)
-                partner[e], partner[best] = best, e
-                link_kind[e] = link_kind[best] = ("wrap", c)
+        for e, f in _pair_round_circle(c, es, P, T, cx, cy, arc_circle, S.layer):
+            partner[e], partner[f] = f, e
+            link_kind[e] = link_kind[f] = ("wrap", c)
 
     # --- remaining open ends close to each other: gaps
     rest = [e for e in open_ends if partner[e] < 0]
@@ -451,6 +437,66 @@ def recognize_paths(d: Drawing, *, tol: Tolerances = Tolerances(),
             w.circle = int(keep[w.circle])
     chains.sort(key=lambda ch: (int(S.order[ch.order]) if len(S.order) else 0, ch.order))
     return Recognition(chains, alias, findings)
+
+
+#: Beyond this many ends arriving on one circle, pairing is greedy instead of exhaustive.
+_EXHAUSTIVE_PAIRS = 4
+
+
+def _pair_round_circle(c: int, es: list[int], P: NDArray[np.float64], T: NDArray[np.float64],
+                       cx: NDArray[np.float64], cy: NDArray[np.float64], arc_circle: NDArray[np.int64],
+                       layers: list[str]) -> list[tuple[int, int]]:
+    """Pair open ends on circle ``c``: each pair is the belt going round the circle.
+
+    An end whose outward tangent turns counter-clockwise round the centre (``+``) pairs with
+    one turning clockwise (``-``); the wrap between them runs counter-clockwise from the
+    ``+`` end. Where several belts touch one circle (a two-groove pulley drawn once) the
+    pairing chosen keeps ends of one layer together, makes gaps next to drawn arcs as short
+    as possible, and makes the shortest wrap left to the circle as long as possible (a belt
+    cannot wrap nothing).
+    """
+    ang = {e: math.atan2(P[e, 1] - cy[c], P[e, 0] - cx[c]) for e in es}
+    sgn = {e: 1 if ((P[e, 0] - cx[c]) * T[e, 1] - (P[e, 1] - cy[c]) * T[e, 0]) > 0 else -1 for e in es}
+    plus = sorted((e for e in es if sgn[e] > 0), key=lambda e: ang[e])
+    minus = [e for e in es if sgn[e] < 0]
+    if not plus or not minus:
+        return []
+    if len(plus) == 1 and len(minus) == 1:
+        return [] if plus[0] // 2 == minus[0] // 2 else [(plus[0], minus[0])]
+
+    def span(e: int, f: int) -> float:
+        return (ang[f] - ang[e]) % (2 * math.pi)
+
+    def on_arc(e: int) -> bool:
+        return arc_circle[e // 2] == c
+
+    if len(plus) <= _EXHAUSTIVE_PAIRS and len(minus) <= _EXHAUSTIVE_PAIRS:
+        import itertools
+
+        best: tuple | None = None
+        best_pairs: list[tuple[int, int]] = []
+        k = min(len(plus), len(minus))
+        for chosen in itertools.permutations(minus, k):
+            for sub in itertools.combinations(plus, k):
+                pairs = [(e, f) for e, f in zip(sub, chosen) if e // 2 != f // 2]
+                if len(pairs) < k:
+                    continue
+                same = sum(1 for e, f in pairs if layers[e // 2] == layers[f // 2])
+                gaps = sum(span(e, f) for e, f in pairs if on_arc(e) or on_arc(f))
+                wraps = [span(e, f) for e, f in pairs if not (on_arc(e) or on_arc(f))]
+                key = (same, -gaps, min(wraps) if wraps else 0.0)
+                if best is None or key > best:
+                    best, best_pairs = key, pairs
+        return best_pairs
+    used: set[int] = set()
+    out = []
+    for e in plus:
+        cands = [f for f in minus if f not in used and f // 2 != e // 2]
+        if cands:
+            f = min(cands, key=lambda f: span(e, f))
+            used.add(f)
+            out.append((e, f))
+    return out
 
 
 def _mark_open(s0: int, partner: NDArray[np.int64], visited: NDArray[np.bool_]) -> None:

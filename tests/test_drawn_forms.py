@@ -199,3 +199,23 @@ def test_far_from_origin_drawing_keeps_precision(tmp):
     assert not _errors(checked), [f.message for f in checked.findings]
     _, length, _ = _wraps_and_length(checked)
     assert length == pytest.approx(geo.open_belt(D * 1e-3, d * 1e-3, C * 1e-3)[2], rel=1e-9)
+
+
+def test_two_belts_on_one_circle_are_two_loops(tmp):
+    # a two-groove motor pulley drawn once, driving a fan to the right and a pump to the
+    # left, both belts as spans only on their own layers: the ends on the shared circle must
+    # pair belt by belt
+    doc = new_doc("mm")
+    msp = doc.modelspace()
+    for c, r in (((0.0, 0.0), 60.0), ((600.0, 0.0), 120.0), ((-500.0, 0.0), 100.0)):
+        msp.add_circle(c, r)
+    from layout.draw import add_belt_path
+    add_belt_path(msp, [(0.0, 0.0), (600.0, 0.0)], [60.0, 120.0], [1, 1], form="spans", layer="FAN_BELT")
+    add_belt_path(msp, [(0.0, 0.0), (-500.0, 0.0)], [60.0, 100.0], [1, 1], form="spans", layer="PUMP_BELT")
+    checked = check_drawing(save(doc, tmp))
+    assert not _errors(checked), [f.message for f in checked.findings]
+    by_id = {lp.id: lp for lp in checked.model.loops}
+    assert set(by_id) == {"FAN_BELT", "PUMP_BELT"}
+    for lid, (R, Cd) in (("FAN_BELT", (120.0, 600.0)), ("PUMP_BELT", (100.0, 500.0))):
+        length = checked.results.loops[lid].geometry.length_m
+        assert length == pytest.approx(geo.open_belt(2 * R * 1e-3, 0.12, Cd * 1e-3)[2], rel=1e-9)
