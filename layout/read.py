@@ -613,6 +613,38 @@ def _flatten(doc: Any) -> tuple[_Collector, list[AttribSet]]:
     return top, attribs
 
 
+def _mask(obj: Any, keep: NDArray[np.bool_]) -> Any:
+    """A copy of a Circles/Segments/Texts with only the rows ``keep``."""
+    from dataclasses import fields as dc_fields
+
+    vals = {}
+    for f in dc_fields(obj):
+        v = getattr(obj, f.name)
+        vals[f.name] = v[keep] if isinstance(v, np.ndarray) else [x for x, k in zip(v, keep) if k]
+    return type(obj)(**vals)
+
+
+def _drop_non_finite(c: Circles, s: Segments, t: Texts) -> tuple[Circles, Segments, Texts, tuple[int, str] | None]:
+    """Drop entities whose coordinates are NaN or infinite (ezdxf reads them as given)."""
+    kc = np.isfinite(c.x) & np.isfinite(c.y) & np.isfinite(c.r) & (c.r > 0)
+    ks = (np.isfinite(s.x0) & np.isfinite(s.y0) & np.isfinite(s.x1) & np.isfinite(s.y1)
+          & np.isfinite(s.cx) & np.isfinite(s.cy) & np.isfinite(s.r) & np.isfinite(s.sweep))
+    kt = np.isfinite(t.x) & np.isfinite(t.y)
+    n = int((~kc).sum() + (~ks).sum() + (~kt).sum())
+    if n == 0:
+        return c, s, t, None
+    if (~kc).any():
+        i = int(np.flatnonzero(~kc)[0])
+        first = f"CIRCLE #{c.handle[i]} on {c.layer[i]}"
+    elif (~ks).any():
+        i = int(np.flatnonzero(~ks)[0])
+        first = f"{s.kind[i]} #{s.handle[i]} on {s.layer[i]}"
+    else:
+        i = int(np.flatnonzero(~kt)[0])
+        first = f"TEXT #{t.handle[i]} on {t.layer[i]}"
+    return _mask(c, kc), _mask(s, ks), _mask(t, kt), (n, first)
+
+
 def read_drawing(path: str | Path) -> Drawing:
     """Read ``path`` into a :class:`Drawing`.
 
@@ -650,6 +682,13 @@ def read_drawing(path: str | Path) -> Drawing:
                         col.s_layer, col.s_handle, col.s_kind, np.asarray(col.s_order, np.int64))
     texts = Texts(np.asarray(col.t[0], float), np.asarray(col.t[1], float), col.t_text,
                   col.t_layer, col.t_handle)
+    circles, segments, texts, bad = _drop_non_finite(circles, segments, texts)
+    if bad:
+        n, first = bad
+        findings.append(Finding(Severity.WARNING, "bad-coordinates",
+                                f"{Path(p).name}: {n} entit{'y' if n == 1 else 'ies'} with coordinates that are not "
+                                f"finite numbers skipped, the first {first}; the file may be damaged",
+                                data={"skipped": n}))
     return Drawing(path=p, sha256=hashlib.sha256(data).hexdigest(), version=version or dxfversion,
                    units=units, recovered=recovered, circles=circles, segments=segments,
                    texts=texts, attribs=attribs, findings=findings, entity_count=col.count)

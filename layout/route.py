@@ -127,8 +127,8 @@ def _read_labels(d: Drawing, wrapped: set[int], alias: np.ndarray, problems: lis
             hits.setdefault(a, []).append(b)
         for k, cands in sorted(hits.items()):
             words = t.text[k].split()
-            if not words or not valid_id(words[0]):
-                continue
+            if not words or not valid_id(words[0]) or any("=" not in w for w in words[1:]):
+                continue                # prose, a callout, a section mark: not a label
             inside = _containing(d, float(t.x[k]), float(t.y[k]), np.asarray(cands))
             inside = [int(alias[i]) for i in inside]
             if not inside:

@@ -176,7 +176,7 @@ def _value(kind: str, raw: Any, where: str, problems: list[str], *, from_label: 
                 return bad("expected a plain number (no unit)" if kind == "number+" else
                            "expected a whole number (no unit)")
             if kind == "count":
-                if int(raw) != raw or raw < 1:
+                if not math.isfinite(raw) or int(raw) != raw or raw < 1:
                     return bad("expected a whole number of at least 1")
                 return int(raw)
             if not math.isfinite(raw) or raw <= 0:

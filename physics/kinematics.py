@@ -92,7 +92,13 @@ def solve_kinematics(drive: Drive) -> Kinematics:
     if not sources:
         return Kinematics(None, None, 1, None, findings=tuple(findings))
     src = sources[0]
-    comp_of_src = nx.node_connected_component(g, ("shaft", shaft[src.id])) if ("shaft", shaft[src.id]) in g else set()
+    if ("shaft", shaft[src.id]) not in g:
+        findings.append(Finding(Severity.ERROR, "ambiguous-drive",
+                                f"pulley {src.id} gives the speed but no belt loop runs on it or on its "
+                                f"shaft; no loop can be driven from it", refs=(src.id,)))
+        return Kinematics(src.id, src.speed_rad_s, src.direction or 1, src.speed_range_rad_s,
+                          findings=tuple(findings))
+    comp_of_src = nx.node_connected_component(g, ("shaft", shaft[src.id]))
     for other in sources[1:]:
         if ("shaft", shaft[other.id]) in comp_of_src:
             findings.append(Finding(Severity.ERROR, "ambiguous-drive",

@@ -85,9 +85,35 @@ def _root(f, scale: float) -> float | None:  # noqa: ANN001
             except GeometryError:
                 break
             if np.sign(fb) != np.sign(fa):
-                lo, hi = min(a, b), max(a, b)
-                return float(brentq(f, lo, hi, xtol=1e-15, rtol=4 * np.finfo(float).eps, maxiter=200))
+                root = _root_between(f, a, fa, b)
+                if root is not None:
+                    return root
             a, fa, s = b, fb, 2.0 * s
+    return None
+
+
+def _root_between(f, a: float, fa: float, b: float, samples: int = 64) -> float | None:  # noqa: ANN001
+    """Brent's method between ``a`` and ``b`` where ``f`` changes sign; if the slide passes
+    through positions where no belt path exists, bracket the first sign change reached from
+    ``a`` without crossing them."""
+    lo, hi = min(a, b), max(a, b)
+    try:
+        return float(brentq(f, lo, hi, xtol=1e-15, rtol=4 * np.finfo(float).eps, maxiter=200))
+    except GeometryError:
+        pass
+    prev, fprev = a, fa
+    for x in np.linspace(a, b, samples + 1)[1:]:
+        try:
+            fx = f(float(x))
+        except GeometryError:
+            return None
+        if np.sign(fx) != np.sign(fprev):
+            try:
+                return float(brentq(f, min(prev, x), max(prev, x), xtol=1e-15, rtol=4 * np.finfo(float).eps,
+                                    maxiter=200))
+            except GeometryError:
+                return None
+        prev, fprev = float(x), fx
     return None
 
 

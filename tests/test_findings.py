@@ -232,3 +232,64 @@ def test_spans_drawn_slightly_long_are_accepted(tmp):
             msp.add_line(tuple(a - 3 * u), tuple(b + 3 * u))
     checked = check_drawing(save(doc, tmp))
     assert not [f for f in checked.findings if f.severity.value == "error"], checked.findings
+
+
+# ---- regressions found by scripts/fuzz_check.py, each with a tiny drawing
+
+def test_regression_speed_source_on_no_loop(tmp):
+    doc = new_doc("mm")
+    msp = doc.modelspace()
+    add_drive(msp, [(0.0, 0.0), (C, 0.0)], [D / 2, d / 2], [1, 1], "polyline")
+    msp.add_circle((2000, 0), 40)
+    msp.add_text("M role=driver speed=1000rpm", dxfattribs={"insert": (2000, 0)})
+    checked = check_drawing(save(doc, tmp))
+    f = [f for f in checked.findings if f.code == "ambiguous-drive"]
+    assert f and "M" in f[0].refs
+
+
+def test_regression_non_finite_coordinates_are_skipped(tmp):
+    doc = new_doc("mm")
+    msp = doc.modelspace()
+    add_drive(msp, [(0.0, 0.0), (C, 0.0)], [D / 2, d / 2], [1, 1], "polyline")
+    msp.add_line((0, 0), (1, 1), dxfattribs={"layer": "JUNK"})
+    msp.add_circle((5, 5), 3, dxfattribs={"layer": "JUNK"})
+    path = save(doc, tmp)
+    text = path.read_text()
+    # write NaN and infinity into the junk entities, as damaged files do
+    k = text.index("AcDbLine\n")
+    text = text[:k] + text[k:].replace("\n 11\n1.0\n", "\n 11\ninf\n", 1)
+    k = text.index("AcDbCircle\n 10\n5.0\n")
+    text = text[:k] + text[k:].replace("\n 10\n5.0\n", "\n 10\nnan\n", 1)
+    path.write_text(text)
+    checked = check_drawing(path)
+    bad = [f for f in checked.findings if f.code == "bad-coordinates"]
+    assert bad and bad[0].data["skipped"] == 2
+    assert len(checked.model.loops) == 1
+
+
+def test_regression_infinite_whole_number_in_spec(tmp):
+    from layout.errors import SpecError
+    from layout.spec import parse_spec
+    for data in ({"belt": {"strands": float("inf")}}, {"modes": float("inf")}):
+        with pytest.raises(SpecError, match="whole number"):
+            parse_spec(data, "s.toml")
+
+
+def test_regression_adjust_slide_through_the_other_pulley():
+    # the slide runs through the other pulley; Brent's method must not step into positions
+    # where no belt path exists
+    from physics.geometry import open_belt
+    from physics.length import solve_adjust
+    target = open_belt(0.2, 0.1, 0.16)[2]
+    res = solve_adjust([[0.0, 0.0], [0.5, 0.0]], [0.1, 0.05], [1, 1], 1, [-1.0, 0.0], target)
+    # moving along -x the centre distance shrinks from 0.5 to 0.16 (Shigley Eq. 17-1, from memory)
+    assert res is not None and 0.5 - res.offset_m == pytest.approx(0.16, rel=1e-9)
+
+
+def test_regression_prose_inside_a_pulley_is_not_a_label(tmp):
+    doc = new_doc("mm")
+    msp = doc.modelspace()
+    add_drive(msp, [(0.0, 0.0), (C, 0.0)], [D / 2, d / 2], [1, 1], "polyline")
+    msp.add_text("SECTION A-A", dxfattribs={"insert": (0, 0)})
+    checked = check_drawing(save(doc, tmp))
+    assert "SECTION" not in checked.model.drive.pulleys
