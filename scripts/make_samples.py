@@ -88,6 +88,7 @@ def bottling_conveyor(out: Path) -> None:
     (out / "bottling_conveyor.spanwise.toml").write_text('''\
 # Bottle conveyor: head and capper shafts driven from one geared motor.
 units = "mm"
+gravity = [0, -1]          # the drive stands upright: spans sag downwards in the drawing
 
 [belt]
 mass_per_length = "0.21 kg/m"
@@ -144,17 +145,18 @@ belt_layers = ["STAGE*"]
 
 [belt]
 section = "SPZ"
-install_tension = "300 N"
+install_tension = "460 N"
 
 [belt.STAGE2]
 section = "SPA"
 strands = 2
-install_tension = "420 N"
+install_tension = "480 N"
 
 [pulley.M1]
 role = "driver"
 speed = "1440 rpm"
 direction = "ccw"
+speed_range = ["1000 rpm", "1500 rpm"]   # on a frequency inverter
 
 [pulley.MIX]
 role = "driven"
