@@ -152,16 +152,19 @@ def test_non_uniformly_scaled_circle_is_a_finding_not_a_pulley(tmp):
     assert len(checked.model.drive.pulleys) == 2
 
 
-def test_plate_outline_offset_round_three_holes_is_not_a_belt(tmp):
-    # a mounting plate: outline offset 12 mm round three 8 mm holes (arcs concentric with the
-    # holes but not on them), next to a real drive
-    doc = new_doc("mm")
-    msp = doc.modelspace()
-    holes = [(2000.0, 0.0), (2200.0, 0.0), (2100.0, 150.0)]
+def _plate(msp, holes, form: str) -> None:
+    """A mounting plate: its outline offset 12 mm round 8 mm holes (arcs concentric with the
+    holes but not on them)."""
+    from layout.draw import add_belt_path
     for h in holes:
         msp.add_circle(h, 4.0)
-    from layout.draw import add_belt_path
-    add_belt_path(msp, holes, [16.0, 16.0, 16.0], [1, 1, 1], form="lines", layer="PLATE")
+    add_belt_path(msp, holes, [16.0] * len(holes), [1] * len(holes), form=form, layer="PLATE")
+
+
+def test_plate_outline_offset_round_three_holes_is_not_a_belt(tmp):
+    doc = new_doc("mm")
+    msp = doc.modelspace()
+    _plate(msp, [(2000.0, 0.0), (2200.0, 0.0), (2100.0, 150.0)], "lines")
     add_drive(msp, [(0.0, 0.0), (C, 0.0)], [D / 2, d / 2], [1, 1], "polyline")
     checked = check_drawing(save(doc, tmp))
     assert len(checked.model.loops) == 1
@@ -170,14 +173,9 @@ def test_plate_outline_offset_round_three_holes_is_not_a_belt(tmp):
 
 
 def test_plate_outline_alone_is_no_belt_loop(tmp):
-    doc = new_doc("mm")
-    msp = doc.modelspace()
-    holes = [(0.0, 0.0), (200.0, 0.0), (100.0, 150.0)]
-    for h in holes:
-        msp.add_circle(h, 4.0)
-    from layout.draw import add_belt_path
-    add_belt_path(msp, holes, [16.0, 16.0, 16.0], [1, 1, 1], form="polyline", layer="PLATE")
     from layout.errors import FatalInput
+    doc = new_doc("mm")
+    _plate(doc.modelspace(), [(0.0, 0.0), (200.0, 0.0), (100.0, 150.0)], "polyline")
     with pytest.raises(FatalInput, match="no belt loop"):
         check_drawing(save(doc, tmp))
 
