@@ -139,8 +139,13 @@ def _read_labels(d: Drawing, wrapped: set[int], alias: np.ndarray, problems: lis
             values = parse_label_words(words[1:], where, problems) if has_keys else {}
             circle = wrapped_in[0] if wrapped_in else inside[0]
             labels.append(_Label(words[0], values, circle, where, "label", has_keys))
+    by_owner: dict[str, list[int]] = {}
+    if d.attribs:
+        for i, o in enumerate(c.owner):
+            if o:
+                by_owner.setdefault(o, []).append(i)
     for a in d.attribs:
-        owned = np.flatnonzero(np.asarray([o == a.handle for o in c.owner], dtype=bool)) if len(c) else np.array([], int)
+        owned = np.asarray(by_owner.get(a.handle, []), dtype=np.int64)
         if not owned.size:
             continue
         owned_alias = sorted({int(alias[i]) for i in owned}, key=lambda i: c.r[i])
