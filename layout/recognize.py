@@ -143,9 +143,11 @@ def _dedup_circles(d: Drawing, tol: Tolerances) -> tuple[NDArray[np.int64], list
         return alias, findings
     pts = np.column_stack([c.x, c.y])
     tree = cKDTree(pts)
-    pairs = tree.query_pairs(r=float(np.max(tol.join_abs(c.r, np.abs(pts).max(axis=1)))) or 0.0,
-                             output_type="ndarray")
-    for i, j in sorted(map(tuple, pairs)):
+    # each circle's own tolerance: a large circle must not widen the search for small ones
+    lims = tol.join_abs(c.r, np.abs(pts).max(axis=1))
+    hits = tree.query_ball_point(pts, r=lims)
+    pairs = sorted((i, j) for i, js in enumerate(hits) for j in js if j > i)
+    for i, j in pairs:
         lim = float(tol.join_abs(min(c.r[i], c.r[j]), max(abs(c.x[i]), abs(c.y[i]))))
         if (math.hypot(c.x[i] - c.x[j], c.y[i] - c.y[j]) <= lim and abs(c.r[i] - c.r[j]) <= lim
                 and alias[j] == j):
