@@ -10,7 +10,6 @@ loops and shafts), and routes the loops the spec gives as ``[route.*]``.
 from __future__ import annotations
 
 import math
-import re
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -27,13 +26,10 @@ from .errors import FatalInput, SpecError
 from .quantity import length_factor
 from .read import Drawing
 from .recognize import Chain, Recognition, Tolerances, recognize_paths
-from .spec import BELT_KEYS, BeltSpec, PulleySpec, Spec, parse_label_words, pulley_values, valid_id
+from .spec import BELT_KEYS, PULLEY_KEYS, BeltSpec, PulleySpec, Spec, parse_label_words, pulley_values, valid_id
 
 __all__ = ["Model", "PulleyRecord", "LoopRecord", "build_model"]
 
-_AUTO_PULLEY = re.compile(r"^P\d+$", re.I)
-_AUTO_LOOP = re.compile(r"^L\d+$", re.I)
-_ATTRIB_SKIP = {"ID"}
 
 
 @dataclass(slots=True)
@@ -152,7 +148,7 @@ def _read_labels(d: Drawing, wrapped: set[int], alias: np.ndarray, problems: lis
         wrapped_in = [i for i in owned_alias if i in wrapped]
         where = f"attributes of block '{a.block}' (INSERT #{a.handle} at {_fmt((a.x, a.y))})"
         pid = a.tags.get("ID", "").strip()
-        items = {k.lower(): v for k, v in a.tags.items() if k.lower() in _pulley_keys() and v.strip()}
+        items = {k.lower(): v for k, v in a.tags.items() if k.lower() in PULLEY_KEYS and v.strip()}
         if not pid and not items:
             continue
         if pid and not valid_id(pid):
@@ -166,16 +162,7 @@ def _read_labels(d: Drawing, wrapped: set[int], alias: np.ndarray, problems: lis
     return labels
 
 
-def _pulley_keys() -> set[str]:
-    from .spec import PULLEY_KEYS
-    return set(PULLEY_KEYS)
-
-
 # --------------------------------------------------------------------------- loops
-
-
-def _belt_height_du(spec: Spec, factor: float) -> float | None:
-    return _height_du(spec.belt, factor)
 
 
 def _height_du(b: BeltSpec, factor: float) -> float | None:
@@ -268,7 +255,7 @@ def build_model(d: Drawing, spec: Spec) -> Model:
     factor = length_factor(units)
     tol = Tolerances.from_spec(spec.tolerances)
     rec: Recognition = recognize_paths(d, tol=tol, belt_layers=spec.belt_layers,
-                                       belt_height=_belt_height_du(spec, factor))
+                                       belt_height=_height_du(spec.belt, factor))
     findings.extend(rec.findings)
     alias = rec.circle_alias
     circ = d.circles

@@ -413,7 +413,7 @@ def _dynamics(drive: Drive, loop: Loop, g: geo.LoopGeometry, kin: Kinematics, ru
         r = np.asarray([drive.pulleys[p].radius_m for p in loop.pulleys])
 
         def evaluate(w: float) -> tuple[NDArray[np.float64], dict[str, float]]:
-            Q = loop_torques(drive, kin, np.array([w]))[0][loop.id]
+            Q = loop_torques(drive, kin, np.array([w]))[loop.id]
             v = np.array([lk.speed_per_source * w])
             Pw = rule.apply(ten.tension_steps(Q, r, b.strands), v)
             Tw = Pw + m * v[:, None] ** 2
@@ -608,8 +608,7 @@ def analyse(drive: Drive, options: Options = Options()) -> Results:
     kin = solve_kinematics(drive)
     findings.extend(kin.findings)
     w_src = _source_speeds(kin, options.range_points)
-    torques, tf = loop_torques(drive, kin, w_src) if kin.source is not None and kin.order else ({}, [])
-    findings.extend(tf)
+    torques = loop_torques(drive, kin, w_src) if kin.source is not None and kin.order else {}
     if kin.source is None and drive.loops:
         findings.append(Finding(Severity.NOTE, "no-speed-source",
                                 "no pulley gives a speed: speeds, torques and running tensions are left "

@@ -167,7 +167,7 @@ def solve_kinematics(drive: Drive) -> Kinematics:
 
 
 def loop_torques(drive: Drive, kin: Kinematics, source_speed: NDArray[np.float64]
-                 ) -> tuple[dict[str, NDArray[np.float64]], list[Finding]]:
+                 ) -> dict[str, NDArray[np.float64]]:
     """Torque on every pulley of every loop (whole set of strands), shape ``(K, n)``.
 
     ``source_speed`` is an array of source speeds (rad/s, magnitudes). Loads given as
@@ -178,7 +178,6 @@ def loop_torques(drive: Drive, kin: Kinematics, source_speed: NDArray[np.float64
     w_src = np.asarray(source_speed, dtype=float).reshape(-1)
     torques: dict[str, NDArray[np.float64]] = {}
     driver_power: dict[str, NDArray[np.float64]] = {}
-    findings: list[Finding] = []
     for lid in reversed(kin.order):
         lk = kin.loops[lid]
         lp = lk.loop
@@ -212,4 +211,4 @@ def loop_torques(drive: Drive, kin: Kinematics, source_speed: NDArray[np.float64
         # the balancing driver's own shaft may feed later loops too (a jackshaft driver)
         driver_power[lid] = Q[:, lk.driver] * w[:, lk.driver]
         torques[lid] = Q
-    return torques, findings
+    return torques

@@ -26,8 +26,7 @@ from numpy.typing import NDArray
 from .geometry import LoopGeometry
 
 __all__ = ["Tensioner", "span_weights", "tension_steps", "quasi_static_tension", "grip",
-           "required_level", "hub_loads", "tensioner_gain", "capstan_ratio", "wedge_friction",
-           "static_frequency"]
+           "required_level", "hub_loads", "tensioner_gain", "capstan_ratio", "wedge_friction"]
 
 
 @dataclass(frozen=True, slots=True)
@@ -162,21 +161,3 @@ def hub_loads(P: NDArray[np.float64], geom: LoopGeometry, strands: int) -> NDArr
     e_out = geom.span_dir
     P_arr = np.roll(P, 1, axis=1)
     return strands * (P_arr[:, :, None] * e_in[None, :, :] + P[:, :, None] * e_out[None, :, :])
-
-
-def static_frequency(tension_n: NDArray[np.float64] | float, mass_kg_m: float, length_m: NDArray[np.float64],
-                     bending_nm2: float | None = None) -> NDArray[np.float64]:
-    """Fundamental transverse frequency of a span at rest (Hz).
-
-    String: ``f = sqrt(T / m) / (2 L)`` (Mersenne's laws; its use to set belt tension is
-    common field practice). With bending stiffness, pinned ends:
-    ``f = sqrt(T / m) / (2 L) * sqrt(1 + pi**2 EI / (T L**2))`` (exact; Blevins, *Formulas
-    for Natural Frequency and Mode Shape*, 1979, beam with axial load, from memory).
-    """
-    T = np.asarray(tension_n, dtype=float)
-    L = np.asarray(length_m, dtype=float)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        f = np.sqrt(T / mass_kg_m) / (2.0 * L)
-        if bending_nm2:
-            f = f * np.sqrt(1.0 + math.pi**2 * bending_nm2 / (T * L * L))
-    return np.where(T > 0, f, np.nan)
