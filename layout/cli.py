@@ -101,7 +101,8 @@ def _check(args: argparse.Namespace) -> int:
 
     from .errors import FatalInput
     from .pipeline import VERSION, check_drawing
-    from .report import dumps, report_dict, summary_text
+    from .console import summary_text
+    from .report import dumps, report_dict
 
     problems: list[str] = []
     out_json = Path(args.json) if args.json else None

@@ -7,11 +7,13 @@ spec, no belt loop); everything else comes back as findings.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+import hashlib
+from dataclasses import dataclass, field
 from pathlib import Path
+from typing import Any
 
 from physics.analysis import GRIP_MARGIN, Options, Results, analyse
-from physics.findings import Finding, Severity
+from physics.findings import Finding, Severity, worst_severity
 
 from .checks import locate, run_checks
 from .errors import FatalInput
@@ -19,7 +21,9 @@ from .read import read_drawing
 from .route import Model, build_model
 from .spec import Spec, load_spec, spec_path_for
 
-__all__ = ["Checked", "check_drawing", "load_spec_for", "options_for", "VERSION"]
+__all__ = ["Report", "Checked", "check_drawing", "load_spec_for", "options_for", "VERSION"]
+
+
 
 try:
     from importlib.metadata import version as _version
@@ -30,13 +34,56 @@ except Exception:  # not installed (running from a checkout)
 
 
 @dataclass(frozen=True, slots=True)
-class Checked:
-    """A drawing read, analysed and checked."""
+class Report:
+    """A drawing read, analysed and checked: the one object every writer takes.
+
+    The console summary (:mod:`layout.console`), the JSON report (:mod:`layout.report`),
+    the annotated drawing (:mod:`layout.annotate`) and the HTML report
+    (:mod:`layout.html`) all read this and compute nothing of their own.
+
+    Attributes
+    ----------
+    model
+        The drawing read as a drive (records in drawing terms, the physics drive).
+    results
+        The physics results of the drive.
+    findings
+        Every finding, errors first, each located in drawing units where it has a place.
+    spec_path, spec_sha256
+        The spec file used and the hash of its bytes, or ``None`` when no spec was found.
+    version
+        The tool's version.
+    document
+        The ezdxf document the drawing was read from, when it was kept for writing back.
+    """
 
     model: Model
     results: Results
     findings: list[Finding]
     spec_path: str | None
+    spec_sha256: str | None = None
+    version: str = VERSION
+    document: Any = field(default=None, repr=False, compare=False)
+
+    def to_dict(self) -> dict[str, Any]:
+        """The JSON report (``schema: "spanwise-report/1"``) as plain values."""
+        from .report import report_dict
+
+        out = report_dict(self.model, self.results, self.findings, version=self.version)
+        out["spec"] = {"path": self.spec_path, "sha256": self.spec_sha256}
+        return out
+
+    def worst(self) -> Severity | None:
+        """The highest severity among the findings, or ``None`` when there is none."""
+        return worst_severity(self.findings)
+
+    def fails(self, threshold: Severity) -> bool:
+        """Whether a finding at or above ``threshold`` exists (exit status 1)."""
+        return any(f.severity.rank >= threshold.rank for f in self.findings)
+
+
+#: The earlier name of :class:`Report`.
+Checked = Report
 
 
 def load_spec_for(drawing: str | Path, spec: str | Path | None) -> tuple[Spec, str | None]:

@@ -1095,7 +1095,8 @@ def run_case(seed: int, folder: str, timeout: float) -> dict[str, Any]:
     signal.setitimer(signal.ITIMER_REAL, timeout)
     try:
         from layout.pipeline import VERSION, check_drawing
-        from layout.report import dumps, report_dict, summary_text
+        from layout.console import summary_text
+        from layout.report import dumps, report_dict
         stage = "check_drawing"
         checked = check_drawing(case.dxf)
         stage = "report"
