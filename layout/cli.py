@@ -11,8 +11,8 @@ import argparse
 import json
 import os
 import sys
-import tempfile
 from pathlib import Path
+from typing import Any
 
 __all__ = ["main"]
 
@@ -28,24 +28,87 @@ class _Parser(argparse.ArgumentParser):
         self.exit(EXIT_FATAL, f"spanwise: {message} (see spanwise --help)\n")
 
 
+def _version() -> str:
+    try:
+        from importlib.metadata import version
+
+        return version("spanwise")
+    except Exception:  # running from a checkout that is not installed
+        return "unknown"
+
+
 def _parser() -> argparse.ArgumentParser:
     p = _Parser(prog="spanwise", description="Check a belt or cable drive drawn in DXF.",
                 epilog=_CAUTION)
+    p.add_argument("--version", action="version", version=f"spanwise {_version()}")
     sub = p.add_subparsers(dest="command", required=True, parser_class=_Parser)
-    c = sub.add_parser("check", help="read one drawing, check its routing and report",
-                       description="Read one DXF drawing, check its routing and report.",
-                       epilog=_CAUTION)
-    c.add_argument("drawing", help="the DXF drawing")
+    _check_parser(sub)
+    _watch_parser(sub)
+    _strip_parser(sub)
+    _suggest_parser(sub)
+    cat = sub.add_parser("catalog", help="list the belt sections spanwise knows")
+    cat.add_argument("--json", action="store_true", help="print the catalogue as JSON")
+    return p
+
+
+def _output_options(c: argparse.ArgumentParser) -> None:
+    where = c.add_mutually_exclusive_group()
+    where.add_argument("--out", metavar="OUT.dxf",
+                       help="write the annotated copy here (default, when no other output is asked for: "
+                            "NAME.spanwise.dxf beside the drawing)")
+    where.add_argument("--overlay", metavar="OUT.dxf",
+                       help="write spanwise's annotations alone, at the drawing's coordinates, to attach "
+                            "as an external reference")
+    where.add_argument("--in-place", action="store_true",
+                       help="write the annotations into the drawing itself, after a backup NAME.dxf.bak")
+    where.add_argument("--read-only", action="store_true", help="write no drawing: print the summary only")
+    c.add_argument("--json", metavar="OUT.json", help="write the JSON report here ('-': standard output)")
+    c.add_argument("--html", metavar="OUT.html", help="write the HTML report here")
     c.add_argument("--spec", help="spec file (default: NAME.spanwise.toml beside the drawing)")
-    c.add_argument("--json", metavar="OUT.json", help="write the JSON report here")
     c.add_argument("--fail-on", choices=("error", "warning"), default="error",
                    help="lowest severity that makes the exit status 1 (default: error)")
     c.add_argument("--grip-margin", type=float, metavar="U",
                    help="highest grip utilisation the install tension is sized for (default: the "
                         "spec's grip_margin, else 0.8)")
     c.add_argument("--force", action="store_true",
-                   help="overwrite output files that spanwise did not write")
+                   help="overwrite output files that spanwise did not write, or that were changed since "
+                        "(never the drawing or the spec being read)")
     c.add_argument("--quiet", "-q", action="store_true", help="print nothing but fatal problems")
+
+
+def _check_parser(sub: Any) -> None:
+    c = sub.add_parser("check", help="read one drawing, check it and write the findings back",
+                       description="Read one DXF drawing, check its routing and mechanics, and write the "
+                                   "findings into an annotated copy, a JSON or an HTML report.",
+                       epilog=_CAUTION)
+    c.add_argument("drawing", help="the DXF drawing")
+    _output_options(c)
+
+
+def _watch_parser(sub: Any) -> None:
+    w = sub.add_parser("watch", help="check a drawing again each time it is saved",
+                       description="Check a drawing each time it is saved: rewrite the annotated copy (and "
+                                   "the reports asked for) and print one status line per run. Ctrl-C ends.",
+                       epilog=_CAUTION)
+    w.add_argument("drawing", help="the DXF drawing")
+    _output_options(w)
+    w.add_argument("--debounce", type=float, default=0.5, metavar="S",
+                   help="seconds the file must stay unchanged before it is checked (default 0.5)")
+    w.add_argument("--poll", type=float, default=0.25, metavar="S",
+                   help="seconds between looks at the file (default 0.25)")
+    w.add_argument("--runs", type=int, default=0, help=argparse.SUPPRESS)   # tests: stop after N runs
+
+
+def _strip_parser(sub: Any) -> None:
+    s = sub.add_parser("strip", help="remove spanwise's layers, entities and blocks from a drawing",
+                       description="Remove everything spanwise wrote into a drawing: its layers, entities "
+                                   "and block definitions. Without --out, in place after a backup.")
+    s.add_argument("drawing", help="the DXF drawing")
+    s.add_argument("--out", metavar="OUT.dxf", help="write the stripped drawing here instead")
+    s.add_argument("--force", action="store_true", help="overwrite an --out file spanwise did not write")
+
+
+def _suggest_parser(sub: Any) -> None:
     s = sub.add_parser("suggest-idler", help="find idler positions that clear a span's resonances",
                        description="Find positions for a new idler on a span that clear its resonances "
                                    "over the speed range and keep every pulley's grip within the margin.",
@@ -63,33 +126,40 @@ def _parser() -> argparse.ArgumentParser:
     s.add_argument("--out", metavar="OUT.dxf", help="write a copy of the drawing with the suggestions drawn")
     s.add_argument("--json", metavar="OUT.json", help="write the suggestions as JSON")
     s.add_argument("--force", action="store_true", help="overwrite output files that spanwise did not write")
-    cat = sub.add_parser("catalog", help="list the belt sections spanwise knows")
-    cat.add_argument("--json", action="store_true", help="print the catalogue as JSON")
-    return p
 
 
-def _is_ours(path: Path) -> bool:
-    """Whether ``path`` is a JSON report spanwise wrote."""
+def _fatal(lines: list[str]) -> int:
+    for line in lines:
+        print(f"spanwise: {line}", file=sys.stderr)
+    return EXIT_FATAL
+
+
+def _threshold(fail_on: str) -> Any:
+    from physics.findings import Severity
+
+    return Severity.ERROR if fail_on == "error" else Severity.WARNING
+
+
+def _check_once(args: argparse.Namespace) -> tuple[Any, list[str]]:
+    """Plan the outputs, check, write; raise FatalInput with every fatal problem."""
+    from .errors import FatalInput
+    from .runner import plan_outputs, run_check
+
+    problems: list[str] = []
+    if Path(args.drawing).is_dir():
+        raise FatalInput(f"{args.drawing}: is a folder; spanwise check reads one DXF drawing: name the "
+                         f"drawing (spanwise check FOLDER/NAME.dxf)")
+    if args.grip_margin is not None and not 0 < args.grip_margin <= 1:
+        problems.append(f"--grip-margin {args.grip_margin}: expected a fraction in (0, 1]")
+    outputs = plan_outputs(args, problems)
     try:
-        with path.open("r", encoding="utf-8") as fh:
-            data = json.load(fh)
-        return isinstance(data, dict) and str(data.get("schema", "")).startswith("spanwise-report/")
-    except (OSError, ValueError):
-        return False
-
-
-def _write_atomic(path: Path, text: str) -> None:
-    fd, tmp = tempfile.mkstemp(prefix=path.name + ".", suffix=".tmp", dir=str(path.parent or "."))
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8") as fh:
-            fh.write(text)
-        os.replace(tmp, path)
-    except BaseException:
-        try:
-            os.unlink(tmp)
-        except OSError:
-            pass
-        raise
+        report, written = run_check(Path(args.drawing), outputs, spec=args.spec, grip_margin=args.grip_margin,
+                                    force=args.force)
+    except FatalInput as err:
+        raise FatalInput(problems + err.problems) from err
+    if problems:
+        raise FatalInput(problems)
+    return report, written
 
 
 def _check(args: argparse.Namespace) -> int:
@@ -97,49 +167,64 @@ def _check(args: argparse.Namespace) -> int:
 
     # a one-shot run: the cyclic collector would only walk the drawing's objects again
     gc.disable()
-    from physics.findings import Severity
-
-    from .errors import FatalInput
-    from .pipeline import VERSION, check_drawing
     from .console import summary_text
-    from .report import dumps, report_dict
+    from .errors import FatalInput
 
-    problems: list[str] = []
-    out_json = Path(args.json) if args.json else None
-    src = Path(args.drawing)
-    if out_json is not None:
-        if out_json.exists() and src.exists() and out_json.resolve() == src.resolve():
-            problems.append(f"{out_json}: is the input drawing; choose another --json file")
-        elif out_json.exists() and not args.force and not _is_ours(out_json):
-            problems.append(f"{out_json}: exists and was not written by spanwise; use --force to "
-                            f"overwrite it")
-        elif not out_json.parent.exists() and str(out_json.parent):
-            problems.append(f"{out_json}: folder {out_json.parent} does not exist")
     try:
-        if args.grip_margin is not None and not 0 < args.grip_margin <= 1:
-            raise FatalInput(f"--grip-margin {args.grip_margin}: expected a fraction in (0, 1]")
-        checked = check_drawing(src, spec=args.spec, grip_margin=args.grip_margin)
+        report, written = _check_once(args)
     except FatalInput as err:
-        for line in problems + err.problems:
-            print(f"spanwise: {line}", file=sys.stderr)
-        return EXIT_FATAL
+        return _fatal(err.problems)
+    code = EXIT_FINDINGS if report.fails(_threshold(args.fail_on)) else EXIT_OK
+    try:
+        if args.json == "-":
+            from .report import dumps
+
+            sys.stdout.write(dumps(report.to_dict()))
+        elif not args.quiet:
+            sys.stdout.write(summary_text(report))
+            for line in written:
+                print(f"  wrote {line}")
+        sys.stdout.flush()
+    except BrokenPipeError:                # e.g. piped into head: the status still counts
+        _silence_stdout()
+    return code
+
+
+def _watch(args: argparse.Namespace) -> int:
+    from .watch import watch_drawing
+
+    return watch_drawing(args, _check_once)
+
+
+def _strip(args: argparse.Namespace) -> int:
+    import ezdxf
+
+    from .annotate import strip
+    from .output import backup, save_document
+    from .runner import Outputs, output_problems
+
+    src = Path(args.drawing)
+    out = Path(args.out) if args.out else None
+    problems = output_problems(Outputs(out=out), src, None, args.force) if out else []
+    if not src.is_file():
+        problems.append(f"{src}: no such drawing file")
     if problems:
-        for line in problems:
-            print(f"spanwise: {line}", file=sys.stderr)
-        return EXIT_FATAL
-    findings = checked.findings
-    if out_json is not None:
-        rep = report_dict(checked.model, checked.results, findings, version=VERSION)
-        try:
-            _write_atomic(out_json, dumps(rep))
-        except OSError as err:
-            print(f"spanwise: {out_json}: cannot write the report ({err.strerror or err})", file=sys.stderr)
-            return EXIT_FATAL
-    if not args.quiet:
-        sys.stdout.write(summary_text(checked.model, checked.results, findings))
-    threshold = Severity.ERROR if args.fail_on == "error" else Severity.WARNING
-    bad = any(f.severity.rank >= threshold.rank for f in findings)
-    return EXIT_FINDINGS if bad else EXIT_OK
+        return _fatal(problems)
+    try:
+        doc = ezdxf.readfile(str(src))
+    except Exception as err:   # the reader raises many kinds; all mean "cannot be read"
+        return _fatal([f"{src}: not a readable DXF drawing ({type(err).__name__}: {err})"])
+    removed = strip(doc)
+    if out is not None:
+        save_document(doc, out)
+        print(f"{src}: {removed} spanwise entit{'y' if removed == 1 else 'ies'} removed; written to {out}")
+    elif removed == 0:
+        print(f"{src}: holds nothing of spanwise's; left as it is")
+    else:
+        saved = backup(src)
+        save_document(doc, src, mode=src.stat().st_mode & 0o7777)
+        print(f"{src}: {removed} spanwise entit{'y' if removed == 1 else 'ies'} removed (backup {saved})")
+    return EXIT_OK
 
 
 def _output_problems(out: Path | None, src: Path, force: bool, *, ours: bool = False) -> list[str]:
@@ -163,6 +248,8 @@ def _suggest(args: argparse.Namespace) -> int:
 
     from .errors import FatalInput
     from .idler import find_span, region_polygons, suggest, suggestion_dict, write_suggestions
+    from .output import write_atomic
+    from .runner import _is_our_json
     from .pipeline import check_drawing
     from .quantity import QuantityError, parse_quantity
     from .report import dumps
@@ -171,7 +258,7 @@ def _suggest(args: argparse.Namespace) -> int:
     out = Path(args.out) if args.out else None
     out_json = Path(args.json) if args.json else None
     problems = _output_problems(out, src, args.force)
-    problems += _output_problems(out_json, src, args.force, ours=bool(out_json and _is_ours(out_json)))
+    problems += _output_problems(out_json, src, args.force, ours=bool(out_json and _is_our_json(out_json)))
     radius = None
     if args.diameter is not None:
         try:
@@ -199,7 +286,7 @@ def _suggest(args: argparse.Namespace) -> int:
         return EXIT_FATAL
     rows = [suggestion_dict(checked, s, k + 1) for k, s in enumerate(found)]
     if out_json is not None:
-        _write_atomic(out_json, dumps({"schema": "spanwise-idlers/1", "drawing": str(src), "span": ref.span_id,
+        write_atomic(out_json, dumps({"schema": "spanwise-idlers/1", "drawing": str(src), "span": ref.span_id,
                                        "loop": ref.loop_id, "suggestions": rows}))
     if out is not None and found:
         write_suggestions(checked, found, out)
@@ -270,9 +357,16 @@ def main(argv: list[str] | None = None) -> int:
             return _catalog(args)
         if args.command == "suggest-idler":
             return _suggest(args)
+        if args.command == "watch":
+            return _watch(args)
+        if args.command == "strip":
+            return _strip(args)
     except KeyboardInterrupt:
         print("spanwise: interrupted", file=sys.stderr)
         return EXIT_FATAL
+    except BrokenPipeError:                # the reader of our output went away: end quietly
+        _silence_stdout()
+        return EXIT_OK
     except Exception as err:  # a bug of ours: one line, not a traceback (SPANWISE_DEBUG=1 shows it)
         if os.environ.get("SPANWISE_DEBUG"):
             raise
@@ -283,6 +377,14 @@ def main(argv: list[str] | None = None) -> int:
     return EXIT_FATAL
 
 
+def _silence_stdout() -> None:
+    try:
+        fd = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(fd, sys.stdout.fileno())
+    except OSError:
+        pass
+
+
 def run() -> None:
     """Console entry point: run, flush, and leave without tearing the heap down.
 
@@ -291,7 +393,10 @@ def run() -> None:
     before ``main`` returns.
     """
     code = main()
-    sys.stdout.flush()
+    try:
+        sys.stdout.flush()
+    except BrokenPipeError:
+        _silence_stdout()
     sys.stderr.flush()
     os._exit(code)
 

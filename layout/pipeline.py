@@ -17,11 +17,11 @@ from physics.findings import Finding, Severity, worst_severity
 
 from .checks import locate, run_checks
 from .errors import FatalInput
-from .read import read_drawing
+from .read import Drawing, read_document, read_drawing
 from .route import Model, build_model
 from .spec import Spec, load_spec, spec_path_for
 
-__all__ = ["Report", "Checked", "check_drawing", "load_spec_for", "options_for", "VERSION"]
+__all__ = ["Report", "Checked", "check_drawing", "check_document", "load_spec_for", "options_for", "VERSION"]
 
 
 
@@ -115,9 +115,30 @@ def options_for(sp: Spec, *, grip_margin: float | None = None) -> Options:
 _ORDER = {Severity.ERROR: 0, Severity.WARNING: 1, Severity.NOTE: 2}
 
 
-def check_drawing(path: str | Path, *, spec: str | Path | None = None,
-                  grip_margin: float | None = None) -> Checked:
+def _sha256(path: str | None) -> str | None:
+    if path is None:
+        return None
+    try:
+        return hashlib.sha256(Path(path).read_bytes()).hexdigest()
+    except OSError:
+        return None
+
+
+def check_drawing(path: str | Path, *, spec: str | Path | None = None, grip_margin: float | None = None,
+                  keep_document: bool = False) -> Report:
     """Read, analyse and check one drawing.
+
+    Parameters
+    ----------
+    path
+        The DXF drawing.
+    spec
+        The spec file; default ``NAME.spanwise.toml`` beside the drawing, if there is one.
+    grip_margin
+        Overrides the spec's grip margin.
+    keep_document
+        Keep the ezdxf document in the report (``Report.document``), to write the findings
+        back into a copy of exactly what was analysed.
 
     Raises
     ------
@@ -132,12 +153,29 @@ def check_drawing(path: str | Path, *, spec: str | Path | None = None,
     except FatalInput as err:
         problems.extend(err.problems)
     try:
-        drawing = read_drawing(path)
+        drawing = read_drawing(path, keep_document=keep_document)
     except FatalInput as err:
         problems.extend(err.problems)
         raise FatalInput(problems) from err
     if sp is None:
         raise FatalInput(problems)
+    return _analyse(drawing, sp, spec_file, grip_margin)
+
+
+def check_document(doc: Any, *, spec: str | Path | None = None, grip_margin: float | None = None,
+                   name: str = "<document>") -> Report:
+    """Analyse and check an ezdxf document already in memory (kept in ``Report.document``).
+
+    ``spec`` is a spec file; without one the drawing's labels alone describe the drive.
+    """
+    sp, spec_file = (load_spec_for(name, spec) if spec is not None else (Spec(), None))
+    return _analyse(read_document(doc, path=name), sp, spec_file, grip_margin)
+
+
+def _analyse(drawing: Drawing, sp: Spec, spec_file: str | None, grip_margin: float | None) -> Report:
+    if drawing.entity_count == 0 and drawing.own_count > 0:
+        raise FatalInput(f"{drawing.path}: holds only spanwise's own annotations (an overlay or a stripped "
+                         f"copy's leftovers); check the drawing they belong to")
     model = build_model(drawing, sp)
     options = options_for(sp, grip_margin=grip_margin)
     results = analyse(model.drive, options)
@@ -145,4 +183,4 @@ def check_drawing(path: str | Path, *, spec: str | Path | None = None,
     findings.extend(locate(model, results, f) for f in results.findings)
     findings.extend(run_checks(model, results))
     findings.sort(key=lambda f: _ORDER[f.severity])
-    return Checked(model, results, findings, spec_file)
+    return Report(model, results, findings, spec_file, _sha256(spec_file), VERSION, drawing.document)

@@ -29,9 +29,10 @@ from numpy.typing import NDArray
 
 from physics.findings import Finding, Severity
 
+from ._own import is_own_name
 from .errors import NotADrawing
 
-__all__ = ["Drawing", "Circles", "Segments", "Texts", "AttribSet", "read_drawing",
+__all__ = ["Drawing", "Circles", "Segments", "Texts", "AttribSet", "read_drawing", "read_document",
            "INSUNITS_NAMES", "UNIFORM_SCALE_TOL", "CIRCLE_RATIO_TOL"]
 
 log = logging.getLogger(__name__)
@@ -140,6 +141,10 @@ class Drawing:
     attribs: list[AttribSet]
     findings: list[Finding] = field(default_factory=list)
     entity_count: int = 0
+    own_count: int = 0
+    """Entities on spanwise's own layers or of its own blocks: skipped, never drawing content."""
+    document: Any = field(default=None, repr=False, compare=False)
+    """The ezdxf document, when the caller asked to keep it (for writing back)."""
 
 
 # --------------------------------------------------------------------------- raw file
@@ -257,6 +262,7 @@ class _Collector:
         self.n_groups = 0
         self.findings: list[Finding] = []
         self.count = 0
+        self.own = 0
 
     def circle(self, x: float, y: float, r: float, layer: str, handle: str, owner: str = "") -> None:
         self.c[0].append(x)
@@ -364,6 +370,9 @@ def _collect_entity(col: _Collector, e: Any, inserts: list[Any] | None, layer0: 
     layer = dxf.layer
     if layer0 is not None and layer == "0":
         layer = layer0
+    if is_own_name(layer) or (t == "INSERT" and is_own_name(dxf.name)):
+        col.own += 1                  # spanwise's own annotation: never drawing content
+        return
     handle = dxf.handle or ""
     if t == "LINE":
         s, en = dxf.start, dxf.end
@@ -542,6 +551,7 @@ def _expand(target: _Collector, local: _Collector, mats: NDArray[np.float64], ow
         target.t_layer.extend(lay)
         target.t_handle.extend(hnd)
     target.count += k * local.count
+    target.own += k * local.own
 
 
 def _flatten(doc: Any) -> tuple[_Collector, list[AttribSet]]:
@@ -645,8 +655,14 @@ def _drop_non_finite(c: Circles, s: Segments, t: Texts) -> tuple[Circles, Segmen
     return _mask(c, kc), _mask(s, ks), _mask(t, kt), (n, first)
 
 
-def read_drawing(path: str | Path) -> Drawing:
+def read_drawing(path: str | Path, *, keep_document: bool = False) -> Drawing:
     """Read ``path`` into a :class:`Drawing`.
+
+    Parameters
+    ----------
+    keep_document
+        Keep the ezdxf document in ``Drawing.document`` (for writing the findings back
+        into a copy of the very drawing that was analysed).
 
     Raises
     ------
@@ -654,6 +670,9 @@ def read_drawing(path: str | Path) -> Drawing:
         When the file cannot be read as DXF, with one line saying why.
     """
     p = str(path)
+    if Path(p).is_dir():
+        raise NotADrawing(f"{p}: is a folder; spanwise check reads one DXF drawing (check the drawings "
+                          f"in a folder one by one, or with spanwise audit where it is installed)")
     try:
         data = Path(p).read_bytes()
     except OSError as err:
@@ -668,11 +687,30 @@ def read_drawing(path: str | Path) -> Drawing:
     try:
         doc, recovered, findings = _load(p, data, binary)
         col, attribs = _flatten(doc)
-        dxfversion = doc.dxfversion
-        del doc
     finally:
         if was_enabled:
             gc.enable()
+    return _drawing(col, attribs, findings, path=p, sha256=hashlib.sha256(data).hexdigest(),
+                    version=version or doc.dxfversion, units=units, recovered=recovered,
+                    document=doc if keep_document else None)
+
+
+def read_document(doc: Any, *, path: str = "<document>") -> Drawing:
+    """A :class:`Drawing` from an ezdxf document already in memory (kept in ``document``).
+
+    Its units are the header's ``$INSUNITS`` (0, unitless, counts as none declared); it has
+    no file, so no ``sha256``.
+    """
+    code = int(doc.header.get("$INSUNITS", 0) or 0) if doc.dxfversion > "AC1009" else 0
+    col, attribs = _flatten(doc)
+    return _drawing(col, attribs, [], path=path, sha256="", version=doc.dxfversion,
+                    units=INSUNITS_NAMES.get(code), recovered=False, document=doc)
+
+
+def _drawing(col: _Collector, attribs: list[AttribSet], findings: list[Finding], *, path: str, sha256: str,
+             version: str, units: str | None, recovered: bool, document: Any) -> Drawing:
+    """The collected primitives as a :class:`Drawing`, entities that are not finite dropped."""
+    p = path
     findings.extend(col.findings)
     circles = Circles(np.asarray(col.c[0], float), np.asarray(col.c[1], float),
                       np.asarray(col.c[2], float), col.c_layer, col.c_handle, col.c_owner,
@@ -689,6 +727,6 @@ def read_drawing(path: str | Path) -> Drawing:
                                 f"{Path(p).name}: {n} entit{'y' if n == 1 else 'ies'} with coordinates that are not "
                                 f"finite numbers skipped, the first {first}; the file may be damaged",
                                 data={"skipped": n}))
-    return Drawing(path=p, sha256=hashlib.sha256(data).hexdigest(), version=version or dxfversion,
-                   units=units, recovered=recovered, circles=circles, segments=segments,
-                   texts=texts, attribs=attribs, findings=findings, entity_count=col.count)
+    return Drawing(path=p, sha256=sha256, version=version, units=units, recovered=recovered, circles=circles,
+                   segments=segments, texts=texts, attribs=attribs, findings=findings, entity_count=col.count,
+                   own_count=col.own, document=document)

@@ -1102,7 +1102,7 @@ def run_case(seed: int, folder: str, timeout: float) -> dict[str, Any]:
         stage = "report"
         rep = report_dict(checked.model, checked.results, checked.findings, version=VERSION)
         text = dumps(rep)
-        summary_text(checked.model, checked.results, checked.findings)
+        summary_text(checked)
         signal.setitimer(signal.ITIMER_REAL, 0)
         res["outcome"] = "ok"
         res["codes"] = sorted({f.code for f in checked.findings})

@@ -1,0 +1,192 @@
+"""One ``check`` run: which outputs, whether each may be written, the check, the writing.
+
+Shared by ``spanwise check`` and ``spanwise watch``. Every output is refused before any
+work is done when it would overwrite the drawing or the spec being read, a file that is
+not a regular file, or a file spanwise did not write (or that was changed since) without
+``--force``; nothing is written when any problem is fatal.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+from .errors import FatalInput
+from .output import DIGEST_PLACEHOLDER, backup, is_sealed, same_file, save_document, seal, write_atomic
+
+__all__ = ["Outputs", "plan_outputs", "output_problems", "run_check", "spec_in_use"]
+
+STDOUT = "-"
+
+
+@dataclass(frozen=True, slots=True)
+class Outputs:
+    """What one run writes; ``json`` may be ``"-"`` for standard output."""
+
+    out: Path | None = None
+    overlay: Path | None = None
+    in_place: bool = False
+    json: Path | str | None = None
+    html: Path | None = None
+
+    @property
+    def needs_document(self) -> bool:
+        return self.out is not None or self.overlay is not None or self.in_place
+
+    def files(self) -> list[tuple[str, Path]]:
+        """The output files with their kind (``dxf``, ``json``, ``html``); not stdout."""
+        rows = [("dxf", self.out), ("dxf", self.overlay), ("html", self.html)]
+        if self.json not in (None, STDOUT):
+            rows.append(("json", Path(self.json)))
+        return [(k, p) for k, p in rows if p is not None]
+
+
+def _path(v: str | None, option: str, problems: list[str]) -> Path | None:
+    if v is None:
+        return None
+    if not v.strip():
+        problems.append(f"{option} '': expected a file name")
+        return None
+    return Path(v)
+
+
+def plan_outputs(args: Any, problems: list[str]) -> Outputs:
+    """The outputs the command line asks for: with none of --out, --overlay, --in-place,
+    --read-only, --json or --html, the annotated copy ``NAME.spanwise.dxf`` beside the drawing."""
+    out = _path(args.out, "--out", problems)
+    overlay = _path(args.overlay, "--overlay", problems)
+    html = _path(args.html, "--html", problems)
+    js: Path | str | None = args.json if args.json == STDOUT else _path(args.json, "--json", problems)
+    nothing = not (out or overlay or args.in_place or args.read_only or args.json is not None or html)
+    if nothing:
+        src = Path(args.drawing)
+        out = src.with_name(src.stem + ".spanwise.dxf")
+    return Outputs(out, overlay, bool(args.in_place), js, html)
+
+
+def spec_in_use(drawing: Path, spec: str | None) -> Path | None:
+    """The spec file a check of ``drawing`` reads, if any."""
+    from .spec import spec_path_for
+
+    if spec is not None:
+        return Path(spec)
+    auto = spec_path_for(drawing)
+    return auto if auto.is_file() else None
+
+
+def _is_our_json(path: Path) -> bool:
+    import json
+
+    try:
+        if path.stat().st_size > 256 * 2**20:
+            return False
+        with path.open("r", encoding="utf-8") as fh:
+            data = json.load(fh)
+        return isinstance(data, dict) and str(data.get("schema", "")).startswith("spanwise-")
+    except (OSError, ValueError):
+        return False
+
+
+def _target_problem(kind: str, p: Path, drawing: Path, spec: Path | None, force: bool) -> str | None:
+    if same_file(p, drawing):
+        return f"{p}: is the drawing being checked; spanwise writes over it only with --in-place"
+    if spec is not None and same_file(p, spec):
+        return f"{p}: is the spec file being read; choose another output file"
+    if not p.parent.is_dir():
+        return f"{p}: folder {p.parent} does not exist"
+    if not p.exists():
+        return None
+    if not p.is_file():
+        return f"{p}: exists and is not a regular file (a folder, device or pipe); choose another output file"
+    ours = _is_our_json(p) if kind == "json" else is_sealed(p)
+    if not ours and not force:
+        what = "was not written by spanwise, or was changed since"
+        return f"{p}: exists and {what}; use --force to overwrite it"
+    return None
+
+
+def output_problems(outputs: Outputs, drawing: Path, spec: Path | None, force: bool) -> list[str]:
+    """Reasons not to write the outputs, one line each (empty: all may be written)."""
+    problems = []
+    seen: dict[str, Path] = {}
+    for kind, p in outputs.files():
+        key = str(p.resolve()) if p.parent.is_dir() else str(p)
+        if key in seen:
+            problems.append(f"{p}: asked for twice (as two different outputs); give each its own file")
+            continue
+        seen[key] = p
+        problem = _target_problem(kind, p, drawing, spec, force)
+        if problem:
+            problems.append(problem)
+    if outputs.in_place and drawing.exists() and not drawing.is_file():
+        problems.append(f"{drawing}: --in-place needs a regular file")
+    return problems
+
+
+def run_check(drawing: Path, outputs: Outputs, *, spec: str | None, grip_margin: float | None,
+              force: bool) -> tuple[Any, list[str]]:
+    """Check ``drawing`` and write ``outputs``; return the report and one line per file written.
+
+    Raises
+    ------
+    FatalInput
+        Every fatal problem: the drawing, the spec, and every output refused.
+    """
+    from .pipeline import check_drawing
+
+    problems: list[str] = []
+    if drawing.is_dir():
+        problems.append(f"{drawing}: is a folder; spanwise check reads one DXF drawing (check each "
+                        f"drawing of a folder by name)")
+        raise FatalInput(problems)
+    problems += output_problems(outputs, drawing, spec_in_use(drawing, spec), force)
+    try:
+        report = check_drawing(drawing, spec=spec, grip_margin=grip_margin, keep_document=outputs.needs_document)
+    except FatalInput as err:
+        raise FatalInput(problems + err.problems) from err
+    if problems:
+        raise FatalInput(problems)
+    try:
+        return report, write_outputs(report, outputs, drawing)
+    except OSError as err:
+        raise FatalInput(f"{err.filename or drawing}: cannot write an output ({err.strerror or err})") from err
+
+
+def write_outputs(report: Any, outputs: Outputs, drawing: Path) -> list[str]:
+    """Write every output of ``report``; return one line per file written."""
+    from .report import dumps
+
+    done = []
+    if outputs.json is not None and outputs.json != STDOUT:
+        write_atomic(outputs.json, dumps(report.to_dict()))
+        done.append(f"JSON report {outputs.json}")
+    if outputs.html is not None:
+        write_atomic(outputs.html, seal(_html(report).encode("utf-8")))
+        done.append(f"HTML report {outputs.html}")
+    if outputs.out is not None or outputs.in_place:
+        from .annotate import annotate
+
+        doc = annotate(report.document, report)
+        if outputs.in_place:
+            saved = backup(drawing)
+            save_document(doc, drawing, mode=drawing.stat().st_mode & 0o7777)
+            done.append(f"annotations into {drawing} (backup {saved})")
+        else:
+            save_document(doc, outputs.out)
+            done.append(f"annotated copy {outputs.out}")
+    if outputs.overlay is not None:
+        from .annotate import overlay
+
+        save_document(overlay(report), outputs.overlay)
+        done.append(f"overlay {outputs.overlay}")
+    return done
+
+
+def _html(report: Any) -> str:
+    """The HTML report with the seal that marks it as spanwise's own, untouched output."""
+    from .html import render_html
+
+    text = render_html(report)
+    meta = f'<meta name="generator" content="spanwise {report.version}; {DIGEST_PLACEHOLDER}">'
+    return text.replace("<head>", "<head>\n" + meta, 1) if "<head>" in text else meta + text
