@@ -270,7 +270,7 @@ def _suggest(args: argparse.Namespace) -> int:
     if args.count < 1:
         problems.append(f"--count {args.count}: expected at least 1")
     try:
-        checked = check_drawing(src, spec=args.spec)
+        checked = check_drawing(src, spec=args.spec, keep_document=out is not None)
         ref = find_span(checked, args.span, args.loop)
         region = region_polygons(checked, args.region) if args.region else None
     except FatalInput as err:

@@ -9,8 +9,6 @@ drawing on spanwise's own layers.
 from __future__ import annotations
 
 import math
-import os
-import tempfile
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
@@ -142,33 +140,34 @@ def suggestion_dict(checked: Checked, s: IdlerSuggestion, rank: int) -> dict[str
 
 
 def write_suggestions(checked: Checked, suggestions: list[IdlerSuggestion], out: Path) -> None:
-    """A copy of the drawing with the suggested idlers and their belt paths on our layers."""
+    """A copy of the drawing with the suggested idlers and their belt paths on our layers
+    (each entity tagged with spanwise's XDATA, so spanwise never reads them as drawing)."""
     import ezdxf
 
+    from ._own import APPID
     from .draw import add_belt_path
+    from .output import save_document
 
-    doc = ezdxf.readfile(checked.model.drawing.path)
+    doc = checked.document if checked.document is not None else ezdxf.readfile(checked.model.drawing.path)
+    if APPID not in doc.appids:
+        doc.appids.add(APPID)
     for name, color in ((IDLER_LAYER, 3), (PATH_LAYER, 4)):
         if name not in doc.layers:
             doc.layers.add(name, color=color)
     msp = doc.modelspace()
     model = checked.model
+    added = []
     for rank, s in enumerate(suggestions, 1):
         c = model.to_drawing(s.center_m)
         r = s.radius_m / model.factor
-        msp.add_circle(c, r, dxfattribs={"layer": IDLER_LAYER})
-        msp.add_text(f"IDLER {rank}", height=r / 3, dxfattribs={"layer": IDLER_LAYER, "insert": (c[0] - r / 2, c[1])})
+        added.append(msp.add_circle(c, r, dxfattribs={"layer": IDLER_LAYER}))
+        added.append(msp.add_text(f"IDLER {rank}", height=r / 3,
+                                  dxfattribs={"layer": IDLER_LAYER, "insert": (c[0] - r / 2, c[1])}))
         loop = s.results.loops[s.loop_id].loop
         drive = s.drive
         centers = [model.to_drawing(drive.pulleys[p].center_m) for p in loop.pulleys]
         radii = [drive.pulleys[p].radius_m / model.factor for p in loop.pulleys]
-        add_belt_path(msp, centers, radii, loop.turns, form="spans", layer=PATH_LAYER)
-    fd, tmp = tempfile.mkstemp(prefix=out.name + ".", suffix=".tmp", dir=str(out.parent))
-    os.close(fd)
-    try:
-        doc.saveas(tmp)
-        os.replace(tmp, out)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
+        added += add_belt_path(msp, centers, radii, loop.turns, form="spans", layer=PATH_LAYER)
+    for e in added:
+        e.set_xdata(APPID, [(1000, "suggested idler")])
+    save_document(doc, out)
