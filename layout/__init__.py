@@ -8,7 +8,7 @@ The Python API (the command line is a thin layer over it):
   own layers (:mod:`layout.annotate`); :func:`strip` removes them again;
 * :func:`render_html` — the HTML report as text (:mod:`layout.html`).
 
-Imports are lazy, so ``import layout`` costs nothing until a function is used.
+The heavy imports (ezdxf, scipy, matplotlib) happen when a function is first used.
 """
 
 from __future__ import annotations
@@ -20,6 +20,10 @@ if TYPE_CHECKING:
     from .pipeline import Report
 
 __all__ = ["check", "annotate", "strip", "render_html"]
+
+# Bound here, not lazily: importing the submodule ``layout.annotate`` would otherwise put
+# the module where the function ``layout.annotate`` belongs.
+from .annotate import annotate, strip  # noqa: E402
 
 
 def check(drawing: str | Path | Any, *, spec: str | Path | None = None, grip_margin: float | None = None,
@@ -48,21 +52,6 @@ def check(drawing: str | Path | Any, *, spec: str | Path | None = None, grip_mar
     if isinstance(drawing, (str, Path)):
         return check_drawing(drawing, spec=spec, grip_margin=grip_margin, keep_document=keep_document)
     return check_document(drawing, spec=spec, grip_margin=grip_margin)
-
-
-def annotate(doc: Any, report: "Report") -> Any:
-    """Write ``report``'s results and findings into the ezdxf document ``doc`` on spanwise's
-    own layers, replacing what spanwise wrote there before; return ``doc``."""
-    from .annotate import annotate as _annotate
-
-    return _annotate(doc, report)
-
-
-def strip(doc: Any) -> int:
-    """Remove spanwise's layers, entities and blocks from ``doc``; return how many entities."""
-    from .annotate import strip as _strip
-
-    return _strip(doc)
 
 
 def render_html(report: "Report") -> str:
