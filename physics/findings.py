@@ -37,7 +37,8 @@ class Finding:
     severity
         ``error``, ``warning`` or ``note``.
     code
-        Short kebab-case code, stable across versions (see the README's table of codes).
+        Short kebab-case code, stable across versions, registered in
+        :data:`physics.codes.CODES` (the README's table of codes says the same).
     message
         One line saying what and where, with numbers and units.
     at
@@ -47,6 +48,13 @@ class Finding:
         Ids of the pulleys, spans or loops concerned.
     data
         Numbers behind the finding, JSON-ready (plain floats, ints, strings, lists).
+        Physics findings hold them in SI with the unit in the key (``speed_rad_s``,
+        ``sag_m``); ``layout.wording.word`` adds the display keys (``speed_rpm``).
+
+    Raises
+    ------
+    ValueError
+        When ``code`` is not registered, or the registry does not allow ``severity`` for it.
     """
 
     severity: Severity
@@ -55,6 +63,16 @@ class Finding:
     at: tuple[float, float] | None = None
     refs: tuple[str, ...] = ()
     data: dict[str, Any] = field(default_factory=dict, compare=False, hash=False)
+
+    def __post_init__(self) -> None:
+        from .codes import CODES
+
+        entry = CODES.get(self.code)
+        if entry is None:
+            raise ValueError(f"finding code {self.code!r} is not registered in physics.codes")
+        if self.severity not in entry.severities:
+            raise ValueError(f"finding code {self.code!r} takes severity "
+                             f"{'/'.join(s.value for s in entry.severities)}, not {self.severity.value}")
 
     def located(self, at: tuple[float, float] | None) -> "Finding":
         """The same finding placed at ``at`` (drawing units)."""
