@@ -20,6 +20,7 @@ from .errors import FatalInput
 from .read import Drawing, read_document, read_drawing
 from .route import Model, build_model
 from .spec import Spec, load_spec, spec_path_for
+from .wording import word
 
 __all__ = ["Report", "Checked", "check_drawing", "check_document", "load_spec_for", "options_for", "VERSION"]
 
@@ -180,7 +181,7 @@ def _analyse(drawing: Drawing, sp: Spec, spec_file: str | None, grip_margin: flo
     options = options_for(sp, grip_margin=grip_margin)
     results = analyse(model.drive, options)
     findings = list(model.findings)
-    findings.extend(locate(model, results, f) for f in results.findings)
+    findings.extend(locate(model, results, word(f)) for f in results.findings)
     findings.extend(run_checks(model, results))
     findings.sort(key=lambda f: _ORDER[f.severity])
     return Report(model, results, findings, spec_file, _sha256(spec_file), VERSION, drawing.document)

@@ -8,14 +8,16 @@ from __future__ import annotations
 
 import json
 import math
+from enum import Enum
 from typing import Any
 
 import numpy as np
 
-from physics.analysis import Results
-from physics.findings import Finding, Severity
+from physics.analysis import GripState, LoopMechanics, Results, ShaftLoad
+from physics.findings import Finding
+from physics.geometry import LoopGeometry
 
-from .route import Model
+from .route import LoopRecord, Model
 
 __all__ = ["SCHEMA", "CAUTION", "report_dict", "dumps", "finding_dict", "failed_report"]
 
@@ -29,7 +31,9 @@ CAUTION = ("Estimates from the drawing as drawn and from catalogue values (some 
 
 
 def _clean(v: Any) -> Any:
-    """Plain JSON values: floats finite or None, tuples as lists, numpy as Python."""
+    """Plain JSON values: floats finite or None, tuples as lists, numpy as Python, enums as their values."""
+    if isinstance(v, Enum):
+        return _clean(v.value)
     if isinstance(v, dict):
         return {str(k): _clean(x) for k, x in v.items()}
     if isinstance(v, (list, tuple)):
@@ -47,6 +51,8 @@ def _clean(v: Any) -> Any:
 
 
 def finding_dict(f: Finding) -> dict[str, Any]:
+    """One finding as plain values (its data as given: physics findings arrive worded, with
+    their display keys, from :func:`layout.wording.word`)."""
     out: dict[str, Any] = {"severity": f.severity.value, "code": f.code, "message": f.message,
                            "at": None if f.at is None else [float(f.at[0]), float(f.at[1])],
                            "refs": list(f.refs)}
@@ -60,130 +66,161 @@ def _pt(model: Model, p_m: Any) -> list[float]:
     return [x, y]
 
 
-def _grip_name(state: int) -> str:
-    from physics.analysis import GRIP_STATES
-    return GRIP_STATES[int(state)]
-
-
 def _deg(v: Any) -> float:
     return math.degrees(math.atan2(float(v[1]), float(v[0])))
 
 
+def _rpm(w: float) -> float:
+    return float(w) * 30.0 / math.pi
+
+
+def _moved(results: Results, loop_id: str) -> bool:
+    """Whether a speed reaches the loop (its speeds, torques and grip are reported)."""
+    kin = results.kinematics
+    return kin is not None and kin.source is not None and loop_id in kin.loops
+
+
+def _pulley_row(model: Model, lp: LoopRecord, i: int, g: LoopGeometry | None, mech: LoopMechanics | None,
+                moved: bool) -> dict[str, Any]:
+    """One pulley of a loop: as drawn, and what the analysis gives at the operating speed."""
+    pid = lp.pulleys[i]
+    p = model.drive.pulleys[pid]
+    row: dict[str, Any] = {
+        "id": pid, "center": list(model.circle_center(lp.circles[i])),
+        "pitch_diameter_m": 2.0 * p.radius_m,
+        "role": mech.roles[i] if mech is not None and mech.roles else p.role.value,
+        "side": lp.sides[i].value,
+        "wrap_deg": None if g is None else math.degrees(float(g.wrap_rad[i])),
+    }
+    if mech is None:
+        return row
+    grip = mech.grip(0, i) if moved else GripState.NO_TORQUE
+    hub = mech.hub_n[0, i]
+    row.update({
+        "speed_rpm": _rpm(mech.omega_rad_s[0, i]) if moved else None,
+        "torque_nm": float(mech.torque_nm[0, i]) if moved else None,
+        "power_w": float(mech.power_w[0, i]) if moved else None,
+        "grip": grip.label,
+        "grip_utilisation": float(mech.utilisation[0, i]) if grip.has_utilisation else None,
+        "hub_load_n": float(np.hypot(*hub)), "hub_load_deg": _deg(hub),
+        "max_hub_load_n": float(mech.max_hub_n[i]),
+        "static_hub_load_n": float(np.hypot(*mech.static_hub_n[i])),
+        "static_hub_load_deg": _deg(mech.static_hub_n[i]),
+        "friction": float(mech.mu[i]),
+    })
+    if moved and mech.omega_rad_s.shape[0] > 1:
+        w = mech.omega_rad_s[1:, i]
+        row["speed_range_rpm"] = [_rpm(w.min()), _rpm(w.max())]
+    return row
+
+
+def _span_row(model: Model, lp: LoopRecord, k: int, g: LoopGeometry | None, mech: LoopMechanics | None
+              ) -> dict[str, Any]:
+    """One free span: its drawn ends, tensions, waves, frequencies and sag."""
+    n = len(lp.pulleys)
+    a, b = lp.pulleys[k], lp.pulleys[(k + 1) % n]
+    row: dict[str, Any] = {
+        "id": f"{a}-{b}", "from": a, "to": b,
+        "start": None if g is None else _pt(model, g.span_start_m[k]),
+        "end": None if g is None else _pt(model, g.span_end_m[k]),
+        "length_m": None if g is None else float(g.span_length_m[k]),
+        "crossed": bool(lp.crossed[k]),
+    }
+    if mech is None:
+        return row
+    row.update({
+        "quasi_static_tension_n": float(mech.quasi_static_n[0, k]),
+        "tension_n": float(mech.tension_n[0, k]),
+        "static_tension_n": float(mech.static_quasi_static_n[k]),
+        "static_frequency_hz": float(mech.static_frequency_hz[k]),
+    })
+    dyn = mech.dynamics
+    if dyn is None:
+        return row
+    row.update({
+        "wave_speed_m_s": float(dyn.wave_speed_m_s[0, k]),
+        "downstream_wave_m_s": float(dyn.downstream_m_s[0, k]),
+        "upstream_wave_m_s": float(dyn.upstream_m_s[0, k]),
+        "v_over_c": float(dyn.v_over_c[0, k]),
+        "frequencies_hz": [float(f) for f in dyn.frequencies_hz[0, k]],
+    })
+    if dyn.sag_m is not None:
+        row.update({
+            "sag_m": float(dyn.sag_m[k]), "static_sag_m": float(dyn.static_sag_m[k]),
+            "sag_ratio": float(dyn.sag_ratio[k]), "static_sag_ratio": float(dyn.static_sag_ratio[k]),
+            "parabolic_sag_m": float(dyn.parabolic_sag_m[k]),
+            "static_parabolic_sag_m": float(dyn.static_parabolic_sag_m[k]),
+        })
+    return row
+
+
+def _loop_row(model: Model, results: Results, lp: LoopRecord) -> dict[str, Any]:
+    """One loop: its length, tensioning, belt, settings, stock, sweep, pulleys and spans."""
+    lr = results.loops.get(lp.id)
+    g = lr.geometry if lr else None
+    mech = lr.mechanics if lr else None
+    moved = mech is not None and _moved(results, lp.id)
+    belt = next(x for x in model.drive.loops if x.id == lp.id).belt
+    row: dict[str, Any] = {"id": lp.id, "length_m": None if g is None else g.length_m,
+                           "path": "routed" if lp.chain is None else "drawn"}
+    if mech is None:
+        row["belt"] = _belt_dict(belt, None)
+    else:
+        row.update({
+            "speed_m_s": float(mech.speed_m_s[0]) if moved else None,
+            "tensioning": mech.tensioning.value,
+            "belt": _belt_dict(belt, mech),
+            "install_tension_n": mech.install_tension_n,
+            "min_install_tension_n": mech.min_install_tension_n,
+        })
+        if mech.tensioner_setting is not None:
+            row["tensioner_setting"] = mech.tensioner_setting
+            row["min_tensioner_setting"] = mech.min_tensioner_setting
+        stock = _stock_dict(model, lp, belt, mech)
+        if stock:
+            row["stock"] = stock
+        if mech.dynamics is not None and moved and mech.source_speed_rad_s.size > 1:
+            row["sweep"] = _sweep_dict(lp, mech)
+    row["pulleys"] = [_pulley_row(model, lp, i, g, mech, moved) for i in range(len(lp.pulleys))]
+    row["spans"] = [_span_row(model, lp, k, g, mech) for k in range(len(lp.pulleys))]
+    return row
+
+
+def _shaft_row(shaft: ShaftLoad) -> dict[str, Any]:
+    """One shaft of two or more pulleys: its speed and the resultant of its hub loads."""
+    item: dict[str, Any] = {"pulleys": list(shaft.pulleys)}
+    if shaft.hub_n is not None and shaft.static_hub_n is not None:
+        item.update({
+            "hub_load_n": float(np.hypot(*shaft.hub_n[0])), "hub_load_deg": _deg(shaft.hub_n[0]),
+            "max_hub_load_n": shaft.max_hub_n,
+            "static_hub_load_n": float(np.hypot(*shaft.static_hub_n)),
+            "static_hub_load_deg": _deg(shaft.static_hub_n),
+        })
+    if shaft.speed_rad_s is not None:
+        item["speed_rpm"] = _rpm(shaft.speed_rad_s)
+    return item
+
+
 def report_dict(model: Model, results: Results, findings: list[Finding], *, version: str) -> dict[str, Any]:
-    """The report of one drawing as plain values."""
+    """The report of one drawing as plain values (``schema: "spanwise-report/1"``).
+
+    Parameters
+    ----------
+    model
+        The drawing read as a drive.
+    results
+        Its physics results: every number here is read from them, none computed.
+    findings
+        Every finding, located and worded.
+    version
+        The tool's version.
+
+    Returns
+    -------
+    dict
+        JSON-ready values: finite floats or ``None``, lists, strings.
+    """
     d = model.drawing
-    drive = model.drive
-    moving = results.kinematics is not None and results.kinematics.source is not None
-    loops = []
-    shaft_force: dict[str, Any] = {}
-    shaft_speed: dict[str, float] = {}
-    for lp in model.loops:
-        lr = results.loops.get(lp.id)
-        g = lr.geometry if lr else None
-        mech = lr.mechanics if lr else None
-        moved = moving and mech is not None and lp.id in results.kinematics.loops  # type: ignore[union-attr]
-        n = len(lp.pulleys)
-        pulleys = []
-        for i, pid in enumerate(lp.pulleys):
-            p = drive.pulleys[pid]
-            row: dict[str, Any] = {
-                "id": pid, "center": list(model.circle_center(lp.circles[i])),
-                "pitch_diameter_m": 2.0 * p.radius_m,
-                "role": mech.roles[i] if mech is not None and mech.roles else p.role.value,
-                "side": lp.sides[i].value,
-                "wrap_deg": None if g is None else math.degrees(float(g.wrap_rad[i])),
-            }
-            if mech is not None:
-                st = int(mech.grip_state[0, i])
-                hub = mech.hub_n[:, i, :]
-                mags = np.hypot(hub[:, 0], hub[:, 1])
-                row.update({
-                    "speed_rpm": float(mech.omega_rad_s[0, i]) * 30.0 / math.pi if moved else None,
-                    "torque_nm": float(mech.torque_nm[0, i]) if moved else None,
-                    "power_w": float(mech.power_w[0, i]) if moved else None,
-                    "grip": _grip_name(st) if moved else "no-torque",
-                    "grip_utilisation": float(mech.utilisation[0, i]) if moved and st in (1, 2) else None,
-                    "hub_load_n": float(mags[0]), "hub_load_deg": _deg(hub[0]),
-                    "max_hub_load_n": float(mags.max()),
-                    "static_hub_load_n": float(np.hypot(*mech.static_hub_n[i])),
-                    "static_hub_load_deg": _deg(mech.static_hub_n[i]),
-                    "friction": float(mech.mu[i]),
-                })
-                if moved and mech.omega_rad_s.shape[0] > 1:
-                    w = mech.omega_rad_s[1:, i] * 30.0 / math.pi
-                    row["speed_range_rpm"] = [float(w.min()), float(w.max())]
-                shaft_force.setdefault(pid, hub[0])
-                if moved:
-                    shaft_speed[pid] = float(mech.omega_rad_s[0, i]) * 30.0 / math.pi
-            pulleys.append(row)
-        spans = []
-        for k in range(n):
-            a, b = lp.pulleys[k], lp.pulleys[(k + 1) % n]
-            row = {
-                "id": f"{a}-{b}", "from": a, "to": b,
-                "start": None if g is None else _pt(model, g.span_start_m[k]),
-                "end": None if g is None else _pt(model, g.span_end_m[k]),
-                "length_m": None if g is None else float(g.span_length_m[k]),
-                "crossed": bool(lp.crossed[k]),
-            }
-            if mech is not None:
-                row.update({
-                    "quasi_static_tension_n": float(mech.quasi_static_n[0, k]),
-                    "tension_n": float(mech.tension_n[0, k]),
-                    "static_tension_n": float(mech.static_quasi_static_n[k]),
-                    "static_frequency_hz": float(mech.static_frequency_hz[k]),
-                })
-                dyn = mech.dynamics
-                if dyn is not None:
-                    row.update({
-                        "wave_speed_m_s": float(dyn.wave_speed_m_s[0, k]),
-                        "downstream_wave_m_s": float(dyn.downstream_m_s[0, k]),
-                        "upstream_wave_m_s": float(dyn.upstream_m_s[0, k]),
-                        "v_over_c": float(dyn.v_over_c[0, k]),
-                        "frequencies_hz": [float(f) for f in dyn.frequencies_hz[0, k]],
-                    })
-                    if dyn.sag_m is not None:
-                        row["sag_m"] = float(dyn.sag_m[k])
-                        row["static_sag_m"] = float(dyn.static_sag_m[k])
-                        row["sag_ratio"] = float(dyn.sag_m[k]) / float(g.span_length_m[k])
-                        row["parabolic_sag_m"] = float(dyn.parabolic_sag_m[k])
-                        row["static_parabolic_sag_m"] = float(dyn.static_parabolic_sag_m[k])
-            spans.append(row)
-        loop_belt = next(x for x in drive.loops if x.id == lp.id).belt
-        row = {"id": lp.id, "length_m": None if g is None else g.length_m,
-               "path": "routed" if lp.chain is None else "drawn"}
-        if mech is not None:
-            row.update({
-                "speed_m_s": float(mech.speed_m_s[0]) if moved else None,
-                "tensioning": mech.tensioning,
-                "belt": _belt_dict(loop_belt, mech),
-                "install_tension_n": mech.install_tension_n,
-                "min_install_tension_n": mech.min_install_tension_n,
-            })
-            if mech.tensioner_setting is not None:
-                row["tensioner_setting"] = mech.tensioner_setting
-                row["min_tensioner_setting"] = mech.min_tensioner_setting
-            stock = _stock_dict(model, lp, loop_belt, mech)
-            if stock:
-                row["stock"] = stock
-            if mech.dynamics is not None and moved and mech.source_speed_rad_s.size > 1:
-                row["sweep"] = _sweep_dict(lp, mech)
-        else:
-            row["belt"] = _belt_dict(loop_belt, None)
-        row["pulleys"] = pulleys
-        row["spans"] = spans
-        loops.append(row)
-    shafts = []
-    for s in drive.shafts:
-        item: dict[str, Any] = {"pulleys": list(s)}
-        if any(p in shaft_force for p in s):
-            f = sum(np.asarray(shaft_force[p]) for p in s if p in shaft_force)
-            item["hub_load_n"] = float(np.hypot(*f))
-            item["hub_load_deg"] = _deg(f)
-        speeds = [shaft_speed[p] for p in s if p in shaft_speed]
-        if speeds:
-            item["speed_rpm"] = speeds[0]
-        shafts.append(item)
     out = {
         "schema": SCHEMA,
         "tool": {"name": "spanwise", "version": version},
@@ -191,8 +228,8 @@ def report_dict(model: Model, results: Results, findings: list[Finding], *, vers
                     "version": d.version},
         "options": {"service_factor": results.options.service_factor,
                     "grip_margin": results.options.grip_margin},
-        "loops": loops,
-        "shafts": shafts,
+        "loops": [_loop_row(model, results, lp) for lp in model.loops],
+        "shafts": [_shaft_row(s) for s in results.shafts],
         "findings": [finding_dict(f) for f in findings],
         "caution": CAUTION,
     }

@@ -2,10 +2,15 @@
 
 ``analyse(drive)`` computes every loop's exact geometry, the kinematics and power flow
 from the speed source through the shafts, the quasi-static tension round every loop
-under its tensioning model, grip at every loaded pulley, hub loads, the lowest install
-tension (or tensioner setting) within the grip margin, stock lengths and the field
-tension check. Every quantity is evaluated at the operating speed (row 0) and over the
-speed range (the other rows), vectorised.
+under its tensioning model, grip at every loaded pulley, hub loads (per pulley and the
+resultant on every shared shaft), the lowest install tension (or tensioner setting)
+within the grip margin, stock lengths and the field tension check. Every quantity is
+evaluated at the operating speed (row 0) and over the speed range (the other rows),
+vectorised.
+
+Findings carry their numbers in SI in ``data`` (speeds of the source in rad/s as
+``speed_rad_s``, lengths in m, powers in W, forces in N, frequencies in Hz) and a plain
+SI message; ``layout.wording`` words them in the trade's units (rpm, mm, kW).
 """
 
 from __future__ import annotations
@@ -23,12 +28,13 @@ from .findings import Finding, Severity
 from . import spans as sp
 from .kinematics import Kinematics, loop_torques, solve_kinematics
 from .length import AdjustResult, nearest_stock, solve_adjust
-from .model import Drive, Loop, Role, Side
+from .model import Drive, Loop, Role, Side, SpanEnds, Tensioning, choice
 from .resonance import RESONANCE_MARGIN, Band, find_bands
+from .tension import GripState
 
-__all__ = ["Options", "LoopMechanics", "SpanDynamics", "TensionRule", "LoopResult", "Results", "analyse",
-           "loop_arrays", "DEFAULT_FRICTION", "GRIP_MARGIN", "RANGE_POINTS", "FRICTION_NOTE_ABOVE",
-           "NEAR_CRITICAL", "SAG_LIMIT", "GRIP_STATES"]
+__all__ = ["Options", "LoopMechanics", "SpanDynamics", "TensionRule", "LoopResult", "ShaftLoad", "Results",
+           "analyse", "loop_arrays", "DEFAULT_FRICTION", "GRIP_MARGIN", "RANGE_POINTS", "FRICTION_NOTE_ABOVE",
+           "NEAR_CRITICAL", "SAG_LIMIT", "GripState", "Tensioning", "SpanEnds"]
 
 #: Flat friction used when neither the spec nor a section gives one: rubber on cast iron
 #: or steel, dry (common practice, from memory: 0.25 to 0.35 is used for design).
@@ -51,13 +57,20 @@ SPAN_WEIGHT_NOTE = 0.05
 FRICTION_NOTE_ABOVE = 0.6
 #: A tensioner arm's lever under this fraction of the idler's radius is suspect.
 LEVER_WARN_FRACTION = 0.1
-
-GRIP_STATES = ("no-torque", "ok", "slip", "slack")
+#: A tensioner whose gain (lever or slide projection) is under this fraction of its radius
+#: cannot set the belt tension.
+GAIN_ZERO_FRACTION = 1e-12
+#: A driver's given power may differ from what its loads take by this fraction.
+POWER_TOLERANCE = 0.02
 
 
 @dataclass(frozen=True, slots=True)
 class Options:
-    """Analysis options (the spec's and the command line's)."""
+    """Analysis options (the spec's and the command line's).
+
+    ``span_ends`` takes a :class:`SpanEnds` or its string (``"pinned"``, ``"clamped"``),
+    checked here: anything else raises ``ValueError``.
+    """
 
     service_factor: float = 1.0
     grip_margin: float = GRIP_MARGIN
@@ -66,8 +79,11 @@ class Options:
     resonance_margin: float = RESONANCE_MARGIN
     near_critical: float = NEAR_CRITICAL
     sag_limit: float = SAG_LIMIT
-    span_ends: str = "pinned"
+    span_ends: SpanEnds = SpanEnds.PINNED
     gravity: tuple[float, float] | None = None          # unit vector, drawing plane
+
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "span_ends", choice(SpanEnds, self.span_ends, "Options.span_ends"))
 
 
 @dataclass(frozen=True, slots=True)
@@ -78,18 +94,18 @@ class TensionRule:
     (constant), ``level - (delta[i-1] + delta[i]) / 2 + delta`` (tensioner at ``i``).
     """
 
-    kind: str
+    kind: Tensioning
     level: float
     weights: NDArray[np.float64]
     mass_kg_m: float
     index: int = -1
 
     def apply(self, delta: NDArray[np.float64], speed_m_s: NDArray[np.float64]) -> NDArray[np.float64]:
-        if self.kind == "tensioner":
-            t = ten.Tensioner(self.index)
-            return ten.quasi_static_tension(delta, self.weights, tensioning="tensioner", install_tension_n=None,
-                                            mass_kg_m=self.mass_kg_m, speed_m_s=speed_m_s, tensioner=t,
-                                            tensioner_p_n=self.level)
+        """Quasi-static span tensions ``(K, n)`` for tension steps ``delta`` at belt speeds ``speed_m_s``."""
+        if self.kind is Tensioning.TENSIONER:
+            return ten.quasi_static_tension(delta, self.weights, tensioning=self.kind, install_tension_n=None,
+                                            mass_kg_m=self.mass_kg_m, speed_m_s=speed_m_s,
+                                            tensioner=ten.Tensioner(self.index), tensioner_p_n=self.level)
         return ten.quasi_static_tension(delta, self.weights, tensioning=self.kind, install_tension_n=self.level,
                                         mass_kg_m=self.mass_kg_m, speed_m_s=speed_m_s)
 
@@ -109,6 +125,9 @@ class SpanDynamics:
     static_sag_m: NDArray[np.float64] | None = None   # (n,) at rest, catenary
     parabolic_sag_m: NDArray[np.float64] | None = None          # (n,) w L^2 / 8P
     static_parabolic_sag_m: NDArray[np.float64] | None = None
+    sag_ratio: NDArray[np.float64] | None = None          # (n,) sag_m / span length
+    static_sag_ratio: NDArray[np.float64] | None = None   # (n,) static_sag_m / span length
+
 
 @dataclass(frozen=True, slots=True)
 class LoopMechanics:
@@ -117,9 +136,12 @@ class LoopMechanics:
     travel order (pulleys, or spans: span ``k`` leaves pulley ``k``).
 
     Tensions are per strand; torques, powers and hub loads for the whole set.
+    ``max_hub_n`` is each pulley's largest hub load over every row (the operating speed and
+    the range), reached at the source speed ``max_hub_speed_rad_s`` (NaN where no hub load
+    is known).
     """
 
-    tensioning: str                      # fixed | constant | tensioner
+    tensioning: Tensioning
     source_speed_rad_s: NDArray[np.float64]   # (K,)
     speed_m_s: NDArray[np.float64]            # (K,) belt speed
     omega_rad_s: NDArray[np.float64]          # (K, n) signed
@@ -128,8 +150,10 @@ class LoopMechanics:
     quasi_static_n: NDArray[np.float64]       # (K, n) per span
     tension_n: NDArray[np.float64]            # (K, n) per span, P + m v^2
     utilisation: NDArray[np.float64]          # (K, n) with the service factor on the loads
-    grip_state: NDArray[np.int8]              # (K, n) index into GRIP_STATES
+    grip_state: NDArray[np.int8]              # (K, n) GripState values
     hub_n: NDArray[np.float64]                # (K, n, 2)
+    max_hub_n: NDArray[np.float64]            # (n,) largest |hub_n| over the rows
+    max_hub_speed_rad_s: NDArray[np.float64]  # (n,) source speed of that largest load
     static_quasi_static_n: NDArray[np.float64]   # (n,) at rest, no torque
     static_hub_n: NDArray[np.float64]            # (n, 2)
     static_frequency_hz: NDArray[np.float64]     # (n,)
@@ -146,6 +170,10 @@ class LoopMechanics:
     rule: TensionRule | None = None
     dynamics: SpanDynamics | None = None
 
+    def grip(self, row: int, i: int) -> GripState:
+        """The grip state of pulley ``i`` at operating point ``row``."""
+        return GripState(int(self.grip_state[row, i]))
+
 
 @dataclass(frozen=True, slots=True)
 class LoopResult:
@@ -157,14 +185,48 @@ class LoopResult:
 
 
 @dataclass(frozen=True, slots=True)
+class ShaftLoad:
+    """The resultant load of the belts on one shaft of two or more pulleys.
+
+    The vector sum of the hub loads of every pulley on the shaft (every loop that wraps
+    them), newtons, in the drive's frame.
+
+    Attributes
+    ----------
+    pulleys
+        The pulley ids on the shaft.
+    speed_rad_s
+        The shaft's signed angular speed at the operating speed; ``None`` where no speed
+        reaches it.
+    hub_n
+        Resultant per operating point, shape ``(K, 2)`` (row 0 the operating speed);
+        ``None`` where no pulley of the shaft has mechanics.
+    max_hub_n
+        The largest ``|hub_n|`` over every row (NaN where none is known).
+    max_hub_speed_rad_s
+        The source speed at which it is reached (NaN where none is known).
+    static_hub_n
+        Resultant at rest, shape ``(2,)``, or ``None``.
+    """
+
+    pulleys: tuple[str, ...]
+    speed_rad_s: float | None
+    hub_n: NDArray[np.float64] | None
+    max_hub_n: float
+    max_hub_speed_rad_s: float
+    static_hub_n: NDArray[np.float64] | None
+
+
+@dataclass(frozen=True, slots=True)
 class Results:
-    """Everything computed for a drive."""
+    """Everything computed for a drive; ``shafts`` lists every shaft of two or more pulleys."""
 
     drive: Drive
     loops: dict[str, LoopResult]
     findings: list[Finding] = field(default_factory=list)
     kinematics: Kinematics | None = None
     options: Options = field(default_factory=Options)
+    shafts: tuple[ShaftLoad, ...] = ()
 
 
 def loop_arrays(drive: Drive, loop: Loop) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -173,10 +235,6 @@ def loop_arrays(drive: Drive, loop: Loop) -> tuple[np.ndarray, np.ndarray, np.nd
     r = np.asarray([drive.pulleys[p].radius_m for p in loop.pulleys], dtype=float)
     t = np.asarray(loop.turns, dtype=float)
     return c, r, t
-
-
-def _rpm(w: float) -> float:
-    return w * 30.0 / math.pi
 
 
 def _source_speeds(kin: Kinematics, points: int) -> NDArray[np.float64]:
@@ -189,6 +247,16 @@ def _source_speeds(kin: Kinematics, points: int) -> NDArray[np.float64]:
     return np.asarray(rows, dtype=float)
 
 
+def _peak(mag: NDArray[np.float64], w_src: NDArray[np.float64]) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
+    """Largest finite value of each column of ``mag`` ``(K, ...)`` and the source speed of
+    its row; NaN for both where a column has no finite value."""
+    finite = np.isfinite(mag)
+    k = np.argmax(np.where(finite, mag, -np.inf), axis=0)
+    top = np.take_along_axis(mag, k[None, ...], axis=0)[0]
+    known = finite.any(axis=0)
+    return np.where(known, top, np.nan), np.where(known, w_src[k], np.nan)
+
+
 def _friction(drive: Drive, loop: Loop, findings: list[Finding]) -> NDArray[np.float64]:
     """Friction at each pulley: the groove's for inside contact on a grooved belt, the flat
     one for back contact and flat belts (back contact never wedges)."""
@@ -199,7 +267,7 @@ def _friction(drive: Drive, loop: Loop, findings: list[Finding]) -> NDArray[np.f
         findings.append(Finding(Severity.NOTE, "friction-assumed",
                                 f"loop {loop.id}: no friction or belt section given; flat friction "
                                 f"{DEFAULT_FRICTION} assumed (rubber on cast iron, common practice)",
-                                refs=(loop.id,)))
+                                refs=(loop.id,), data={"friction": DEFAULT_FRICTION}))
     out = []
     for pid, side in zip(loop.pulleys, loop.sides):
         p = drive.pulleys[pid]
@@ -214,8 +282,9 @@ def _friction(drive: Drive, loop: Loop, findings: list[Finding]) -> NDArray[np.f
         if eff > FRICTION_NOTE_ABOVE:
             findings.append(Finding(Severity.NOTE, "friction-derived",
                                     f"loop {loop.id}, pulley {pid}: groove friction {eff:.3f} derived as "
-                                    f"{mu:g} / sin({math.degrees(groove) / 2:g} deg), above the usual design "
-                                    f"value; give effective_friction to set it", refs=(loop.id, pid)))
+                                    f"{mu:g} / sin({groove / 2:.4g} rad), above the usual design "
+                                    f"value; give effective_friction to set it", refs=(loop.id, pid),
+                                    data={"effective_friction": eff, "friction": mu, "groove_angle_rad": groove}))
         out.append(eff)
     return np.asarray(out, dtype=float)
 
@@ -247,113 +316,107 @@ def _effective_roles(drive: Drive, kin: Kinematics, loop: Loop) -> tuple[str, ..
     return tuple(roles)
 
 
-def _loop_mechanics(drive: Drive, loop: Loop, g: geo.LoopGeometry, kin: Kinematics,
-                    torques: dict[str, NDArray[np.float64]], w_src: NDArray[np.float64], opts: Options,
-                    findings: list[Finding]) -> LoopMechanics:
-    c, r, _ = loop_arrays(drive, loop)
+@dataclass(frozen=True, slots=True)
+class _Setting:
+    """How a loop is tensioned: the rule, the tension at rest and the settings."""
+
+    rule: TensionRule
+    static_P: NDArray[np.float64]
+    install: float | None
+    min_install: float | None
+    setting: float | None = None
+    min_setting: float | None = None
+
+
+def _motion(loop: Loop, kin: Kinematics, torques: dict[str, NDArray[np.float64]], w_src: NDArray[np.float64]
+            ) -> tuple[NDArray[np.float64], NDArray[np.float64], NDArray[np.float64]]:
+    """Belt speed ``(K,)``, pulley speeds ``(K, n)`` and torques ``(K, n)``; zero where the
+    loop is not driven."""
     n = len(loop.pulleys)
-    b = loop.belt
-    s = b.strands
-    m = b.mass_per_length_kg_m
-    mass = m or 0.0
     lk = kin.loops.get(loop.id)
     if lk is not None and loop.id in torques:
-        speed = lk.speed_per_source * w_src
-        omega = lk.omega_per_source[None, :] * w_src[:, None]
-        Q = torques[loop.id]
-    else:
-        speed = np.zeros(w_src.size)
-        omega = np.zeros((w_src.size, n))
-        Q = np.zeros((w_src.size, n))
-    tensioner = _tensioner(drive, loop, findings)
-    # tensions need a setting (install tension, tensioner) or a load to size one for
-    given = b.install_tension_n is not None or (tensioner is not None and (
-        tensioner.force_n is not None or tensioner.arm_torque_nm is not None))
-    active = given or bool(np.any(Q))
-    quiet: list[Finding] = []
-    mu = _friction(drive, loop, findings if active else quiet)
-    if m is None and active:
-        findings.append(Finding(Severity.NOTE, "mass-unknown",
-                                f"loop {loop.id}: no mass per length or section given; centrifugal "
-                                f"tension and span frequencies are left out", refs=(loop.id,)))
-    weights = ten.span_weights(g)
-    delta = ten.tension_steps(Q, r, s)
-    delta_sf = ten.tension_steps(Q * opts.service_factor, r, s)
-    tensioning = "tensioner" if tensioner is not None else b.tensioning
-    # lowest level X (P = X + delta) within the grip margin, per operating point
-    x_req = ten.required_level(delta_sf, Q * opts.service_factor, r, mu, g.wrap_rad, s, opts.grip_margin)
-    min_install = None
-    min_setting = None
-    setting = None
+        return lk.speed_per_source * w_src, lk.omega_per_source[None, :] * w_src[:, None], torques[loop.id]
+    return np.zeros(w_src.size), np.zeros((w_src.size, n)), np.zeros((w_src.size, n))
+
+
+def _fixed_setting(loop: Loop, weights: NDArray[np.float64], delta_sf: NDArray[np.float64],
+                   x_req: NDArray[np.float64], speed: NDArray[np.float64], active: bool,
+                   findings: list[Finding]) -> _Setting:
+    """Fixed-centre or constant tensioning: the install tension given, else the lowest
+    within the grip margin."""
+    b = loop.belt
+    mass = b.mass_per_length_kg_m or 0.0
+    mean_sf = delta_sf @ weights / weights.sum()
+    t0_req = x_req + mean_sf + (mass * speed * speed if b.tensioning is Tensioning.FIXED else 0.0)
+    min_install = float(max(t0_req.max(), 0.0))
     install = b.install_tension_n
-    if tensioner is None:
-        mean_sf = delta_sf @ weights / weights.sum()
-        t0_req = x_req + mean_sf + (mass * speed * speed if b.tensioning == "fixed" else 0.0)
-        min_install = float(max(t0_req.max(), 0.0))
-        if install is None and active:
-            install = min_install
-            findings.append(Finding(Severity.NOTE, "install-tension-assumed",
-                                    f"loop {loop.id}: no install_tension given; analysed at the lowest "
-                                    f"setting within the grip margin, {min_install:.1f} N per strand",
-                                    refs=(loop.id,), data={"install_tension_n": min_install}))
-        level = install if install is not None else 0.0
-        rule = TensionRule(b.tensioning, level, weights, mass)
-        static_P = np.full(n, level, dtype=float)
-    else:
-        i = tensioner.index
-        gain = ten.tensioner_gain(g, c, tensioner)
-        pid = loop.pulleys[i]
-        if gain <= 1e-12 * r[i]:
-            arm = tensioner.arm_torque_nm is not None
-            findings.append(Finding(Severity.ERROR, "tensioner-lever" if arm else "tensioner-slide",
-                                    f"loop {loop.id}: tensioner {pid} " + (
-                                        "has its pivot on the line of the belt's force" if arm else
-                                        "slides square to the resultant of its spans") +
-                                    "; it cannot set the belt tension", refs=(loop.id, pid)))
-            gain = float("nan")
-        if tensioner.arm_torque_nm is not None:
-            e = -g.span_dir[i - 1] + g.span_dir[i]
-            lever = gain / max(float(np.hypot(*e)), 1e-300)
-            if lever < LEVER_WARN_FRACTION * r[i]:
-                findings.append(Finding(Severity.WARNING, "tensioner-lever",
-                                        f"loop {loop.id}: tensioner {pid}'s arm acts through a lever of "
-                                        f"{lever * 1e3:.2f} mm, under a tenth of the idler's radius; its "
-                                        f"force on the belt is ill-defined", refs=(loop.id, pid),
-                                        data={"lever_m": lever}))
-        p_req = x_req + 0.5 * (delta_sf[:, i - 1] + delta_sf[:, i])
-        min_p = float(max(p_req.max(), 0.0))
-        min_setting = min_p * s * gain
-        min_install = min_p
-        setting = tensioner.arm_torque_nm if tensioner.arm_torque_nm is not None else tensioner.force_n
-        if setting is None and active:
-            setting = min_setting
-            findings.append(Finding(Severity.NOTE, "install-tension-assumed",
-                                    f"loop {loop.id}: tensioner {pid} has no force or arm torque; analysed "
-                                    f"at the lowest setting within the grip margin, {min_setting:.1f}",
-                                    refs=(loop.id, pid)))
-        p_t = (setting if setting is not None else 0.0) / (s * gain)
-        rule = TensionRule("tensioner", p_t, weights, mass, i)
-        static_P = np.full(n, p_t, dtype=float)
-        install = p_t
-    P = rule.apply(delta, speed)
-    P_sf = rule.apply(delta_sf, speed)
-    if not active:
-        # nothing sets or loads this belt: its tensions are unknown, not zero
-        P = np.full_like(P, np.nan)
-        P_sf = P
-        static_P = np.full(n, np.nan)
-        install = min_install = None
-        rule = None
-    T = P + mass * (speed * speed)[:, None]
-    util, state = ten.grip(P_sf, Q, mu, g.wrap_rad)
-    hub = ten.hub_loads(P, g, s)
-    static_hub = ten.hub_loads(static_P[None, :], g, s)[0]
-    # the field pluck check: the same span model at rest (string, or beam with EI)
-    freq = sp.span_frequencies(static_P, static_P, mass, g.span_length_m, 0.0, 1, bending_nm2=b.bending_stiffness_nm2,
-                               ends=opts.span_ends)[:, 0] if m else np.full(n, np.nan)
-    freq = np.where(static_P > 0, freq, np.nan)
-    power = Q * np.abs(omega)
-    # stock length and the adjustable pulley
+    if install is None and active:
+        install = min_install
+        findings.append(Finding(Severity.NOTE, "install-tension-assumed",
+                                f"loop {loop.id}: no install_tension given; analysed at the lowest "
+                                f"setting within the grip margin, {min_install:.1f} N per strand",
+                                refs=(loop.id,), data={"install_tension_n": min_install}))
+    level = install if install is not None else 0.0
+    rule = TensionRule(b.tensioning, level, weights, mass)
+    return _Setting(rule, np.full(len(loop.pulleys), level, dtype=float), install, min_install)
+
+
+def _tensioner_gain(loop: Loop, g: geo.LoopGeometry, c: NDArray[np.float64], r: NDArray[np.float64],
+                    tensioner: ten.Tensioner, findings: list[Finding]) -> float:
+    """The tensioner's gain (NaN where it cannot set the tension), with its findings."""
+    i = tensioner.index
+    pid = loop.pulleys[i]
+    gain = ten.tensioner_gain(g, c, tensioner)
+    arm = tensioner.arm_torque_nm is not None
+    if gain <= GAIN_ZERO_FRACTION * r[i]:
+        findings.append(Finding(Severity.ERROR, "tensioner-lever" if arm else "tensioner-slide",
+                                f"loop {loop.id}: tensioner {pid} " + (
+                                    "has its pivot on the line of the belt's force" if arm else
+                                    "slides square to the resultant of its spans") +
+                                "; it cannot set the belt tension", refs=(loop.id, pid)))
+        gain = float("nan")
+    if arm:
+        e = -g.span_dir[i - 1] + g.span_dir[i]
+        lever = gain / max(float(np.hypot(*e)), 1e-300)
+        if lever < LEVER_WARN_FRACTION * r[i]:
+            findings.append(Finding(Severity.WARNING, "tensioner-lever",
+                                    f"loop {loop.id}: tensioner {pid}'s arm acts through a lever of "
+                                    f"{lever:.4g} m, under a tenth of the idler's radius; its "
+                                    f"force on the belt is ill-defined", refs=(loop.id, pid),
+                                    data={"lever_m": lever, "radius_m": float(r[i])}))
+    return gain
+
+
+def _tensioner_setting(loop: Loop, g: geo.LoopGeometry, c: NDArray[np.float64], r: NDArray[np.float64],
+                       tensioner: ten.Tensioner, weights: NDArray[np.float64], delta_sf: NDArray[np.float64],
+                       x_req: NDArray[np.float64], active: bool, findings: list[Finding]) -> _Setting:
+    """A tensioner idler: its force or arm torque given, else the lowest within the grip margin."""
+    s = loop.belt.strands
+    i = tensioner.index
+    pid = loop.pulleys[i]
+    gain = _tensioner_gain(loop, g, c, r, tensioner, findings)
+    p_req = x_req + 0.5 * (delta_sf[:, i - 1] + delta_sf[:, i])
+    min_p = float(max(p_req.max(), 0.0))
+    min_setting = min_p * s * gain
+    arm = tensioner.arm_torque_nm is not None
+    setting = tensioner.arm_torque_nm if arm else tensioner.force_n
+    if setting is None and active:
+        setting = min_setting
+        unit, key = ("N*m", "arm_torque_nm") if arm else ("N", "force_n")
+        findings.append(Finding(Severity.NOTE, "install-tension-assumed",
+                                f"loop {loop.id}: tensioner {pid} has no force or arm torque; analysed "
+                                f"at the lowest setting within the grip margin, {min_setting:.1f} {unit}",
+                                refs=(loop.id, pid), data={key: min_setting}))
+    p_t = (setting if setting is not None else 0.0) / (s * gain)
+    rule = TensionRule(Tensioning.TENSIONER, p_t, weights, loop.belt.mass_per_length_kg_m or 0.0, i)
+    return _Setting(rule, np.full(len(loop.pulleys), p_t, dtype=float), p_t, min_p, setting, min_setting)
+
+
+def _stock(drive: Drive, loop: Loop, g: geo.LoopGeometry, install: float | None, findings: list[Finding]
+           ) -> tuple[tuple[float, ...], float, tuple[str, AdjustResult] | None]:
+    """Nearest stock lengths, the unstretched path length and the adjustable pulley's position."""
+    b = loop.belt
+    c, r, _ = loop_arrays(drive, loop)
     stretch = 1.0 + (install / b.axial_stiffness_n if (b.axial_stiffness_n and install) else 0.0)
     unstretched = g.length_m / stretch
     series = b.stock_lengths_m
@@ -361,25 +424,79 @@ def _loop_mechanics(drive: Drive, loop: Loop, g: geo.LoopGeometry, kin: Kinemati
         sec = find_section(b.section)
         series = sec.stock_lengths_m if sec else None
     nearest = tuple(nearest_stock(unstretched, series)) if series else ()
-    adjust = None
     adj = [(i, p) for i, p in enumerate(loop.pulleys) if drive.pulleys[p].adjust is not None]
-    if b.length_m is not None and adj:
-        i, pid = adj[0]
-        target = b.length_m * stretch
-        res = solve_adjust(c, r, np.asarray(loop.turns, float), i, drive.pulleys[pid].adjust, target)
-        if res is None:
-            findings.append(Finding(Severity.ERROR, "length-unreachable",
-                                    f"loop {loop.id}: no position of {pid} along its slide gives the "
-                                    f"{b.length_m * 1e3:.1f} mm belt a path of {target * 1e3:.1f} mm",
-                                    refs=(loop.id, pid)))
-        else:
-            adjust = (pid, res)
+    if b.length_m is None or not adj:
+        return nearest, unstretched, None
+    i, pid = adj[0]
+    target = b.length_m * stretch
+    res = solve_adjust(c, r, np.asarray(loop.turns, float), i, drive.pulleys[pid].adjust, target)
+    if res is not None:
+        return nearest, unstretched, (pid, res)
+    findings.append(Finding(Severity.ERROR, "length-unreachable",
+                            f"loop {loop.id}: no position of {pid} along its slide gives the "
+                            f"{b.length_m:.4f} m belt a path of {target:.4f} m", refs=(loop.id, pid),
+                            data={"belt_length_m": b.length_m, "path_length_m": target}))
+    return nearest, unstretched, None
+
+
+def _loop_mechanics(drive: Drive, loop: Loop, g: geo.LoopGeometry, kin: Kinematics,
+                    torques: dict[str, NDArray[np.float64]], w_src: NDArray[np.float64], opts: Options,
+                    findings: list[Finding]) -> LoopMechanics:
+    c, r, _ = loop_arrays(drive, loop)
+    n = len(loop.pulleys)
+    b = loop.belt
+    m = b.mass_per_length_kg_m
+    mass = m or 0.0
+    speed, omega, Q = _motion(loop, kin, torques, w_src)
+    tensioner = _tensioner(drive, loop, findings)
+    # tensions need a setting (install tension, tensioner) or a load to size one for
+    given = b.install_tension_n is not None or (tensioner is not None and (
+        tensioner.force_n is not None or tensioner.arm_torque_nm is not None))
+    active = given or bool(np.any(Q))
+    mu = _friction(drive, loop, findings if active else [])
+    if m is None and active:
+        findings.append(Finding(Severity.NOTE, "mass-unknown",
+                                f"loop {loop.id}: no mass per length or section given; centrifugal "
+                                f"tension and span frequencies are left out", refs=(loop.id,)))
+    weights = ten.span_weights(g)
+    delta = ten.tension_steps(Q, r, b.strands)
+    delta_sf = ten.tension_steps(Q * opts.service_factor, r, b.strands)
+    # lowest level X (P = X + delta) within the grip margin, per operating point
+    x_req = ten.required_level(delta_sf, Q * opts.service_factor, r, mu, g.wrap_rad, b.strands, opts.grip_margin)
+    if tensioner is None:
+        st = _fixed_setting(loop, weights, delta_sf, x_req, speed, active, findings)
+    else:
+        st = _tensioner_setting(loop, g, c, r, tensioner, weights, delta_sf, x_req, active, findings)
+    rule: TensionRule | None = st.rule
+    P = st.rule.apply(delta, speed)
+    P_sf = st.rule.apply(delta_sf, speed)
+    static_P, install, min_install = st.static_P, st.install, st.min_install
+    if not active:
+        # nothing sets or loads this belt: its tensions are unknown, not zero
+        P = P_sf = np.full_like(P, np.nan)
+        static_P = np.full(n, np.nan)
+        install = min_install = rule = None
+    T = P + mass * (speed * speed)[:, None]
+    util, state = ten.grip(P_sf, Q, mu, g.wrap_rad)
+    hub = ten.hub_loads(P, g, b.strands)
+    max_hub, max_hub_at = _peak(np.hypot(hub[..., 0], hub[..., 1]), w_src)
+    static_hub = ten.hub_loads(static_P[None, :], g, b.strands)[0]
+    # the field pluck check: the same span model at rest (string, or beam with EI)
+    freq = sp.span_frequencies(static_P, static_P, mass, g.span_length_m, 0.0, 1, bending_nm2=b.bending_stiffness_nm2,
+                               ends=opts.span_ends)[:, 0] if m else np.full(n, np.nan)
+    freq = np.where(static_P > 0, freq, np.nan)
+    nearest, unstretched, adjust = _stock(drive, loop, g, install, findings)
     dynamics = None
     if m and rule is not None:
         dynamics = _dynamics(drive, loop, g, kin, rule, w_src, speed, omega, P, T, static_P, opts)
-    return LoopMechanics(tensioning, w_src, speed, omega, Q, power, P, T, util, state, hub, static_P, static_hub,
-                         freq, mu, mass, install, min_install, setting, min_setting,
-                         _effective_roles(drive, kin, loop), nearest, unstretched, adjust, rule, dynamics)
+    return LoopMechanics(
+        tensioning=st.rule.kind, source_speed_rad_s=w_src, speed_m_s=speed,
+        omega_rad_s=omega, torque_nm=Q, power_w=Q * np.abs(omega), quasi_static_n=P, tension_n=T,
+        utilisation=util, grip_state=state, hub_n=hub, max_hub_n=max_hub, max_hub_speed_rad_s=max_hub_at,
+        static_quasi_static_n=static_P, static_hub_n=static_hub, static_frequency_hz=freq, mu=mu, mass_kg_m=mass,
+        install_tension_n=install, min_install_tension_n=min_install, tensioner_setting=st.setting,
+        min_tensioner_setting=st.min_setting, roles=_effective_roles(drive, kin, loop), stock_nearest_m=nearest,
+        unstretched_length_m=unstretched, adjust=adjust, rule=rule, dynamics=dynamics)
 
 
 def _excitations(drive: Drive, loop: Loop, omega: NDArray[np.float64], speed: NDArray[np.float64],
@@ -392,6 +509,53 @@ def _excitations(drive: Drive, loop: Loop, omega: NDArray[np.float64], speed: ND
             out[f"{pid} x{order:g}"] = order * np.abs(omega[..., i]) / (2 * math.pi)
     out["belt pass"] = np.abs(speed) / length_m
     return out
+
+
+def _bands(drive: Drive, loop: Loop, g: geo.LoopGeometry, kin: Kinematics, rule: TensionRule,
+           w_src: NDArray[np.float64], freqs: NDArray[np.float64], exc: dict[str, NDArray[np.float64]],
+           opts: Options) -> tuple[Band, ...]:
+    """Resonance bands over the sweep, refined on the continuous model of this one loop."""
+    lk = kin.loops.get(loop.id)
+    if lk is None or kin.source_speed_rad_s is None:
+        return ()
+    b = loop.belt
+    m = b.mass_per_length_kg_m
+    L = g.span_length_m
+    r = np.asarray([drive.pulleys[p].radius_m for p in loop.pulleys])
+
+    def evaluate(w: float) -> tuple[NDArray[np.float64], dict[str, float]]:
+        Q = loop_torques(drive, kin, np.array([w]))[loop.id]
+        v = np.array([lk.speed_per_source * w])
+        Pw = rule.apply(ten.tension_steps(Q, r, b.strands), v)
+        Tw = Pw + m * v[:, None] ** 2
+        f = sp.span_frequencies(Pw, Tw, m, L[None, :], v[:, None], opts.modes,
+                                bending_nm2=b.bending_stiffness_nm2, ends=opts.span_ends)[0]
+        ex = _excitations(drive, loop, lk.omega_per_source[None, :] * w, v, g.length_m)
+        return f, {k: float(x[0]) for k, x in ex.items()}
+
+    sweep = slice(1, None) if w_src.size > 1 else slice(0, 1)
+    return tuple(find_bands(w_src[sweep], freqs[sweep], {k: x[sweep] for k, x in exc.items()}, evaluate,
+                            margin=opts.resonance_margin))
+
+
+def _sags(loop: Loop, g: geo.LoopGeometry, P0: NDArray[np.float64], static_P: NDArray[np.float64],
+          gravity: tuple[float, float]) -> dict[str, NDArray[np.float64]]:
+    """Catenary and parabolic sag of every span, running (``P0``) and at rest, and the
+    catenary sag over the span's length."""
+    chord = g.span_end_m - g.span_start_m
+    gv = np.asarray(gravity, dtype=float)
+    side = np.array([gv[1], -gv[0]])
+    chord_len = np.hypot(chord[:, 0], chord[:, 1])
+    cosb = np.abs(chord @ side) / chord_len
+    weight = (loop.belt.mass_per_length_kg_m or 0.0) * sp.G0
+    sag = sp.catenary_sag(chord, gv, weight, P0 * cosb)
+    static_sag = sp.catenary_sag(chord, gv, weight, static_P * cosb)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        ratio, static_ratio = sag / g.span_length_m, static_sag / g.span_length_m
+    return {"sag_m": sag, "static_sag_m": static_sag,
+            "parabolic_sag_m": sp.parabolic_sag(weight, chord_len, P0),
+            "static_parabolic_sag_m": sp.parabolic_sag(weight, chord_len, static_P),
+            "sag_ratio": ratio, "static_sag_ratio": static_ratio}
 
 
 def _dynamics(drive: Drive, loop: Loop, g: geo.LoopGeometry, kin: Kinematics, rule: TensionRule,
@@ -407,94 +571,146 @@ def _dynamics(drive: Drive, loop: Loop, g: geo.LoopGeometry, kin: Kinematics, ru
     freqs = sp.span_frequencies(P, T, m, L[None, :], speed[:, None], opts.modes, bending_nm2=b.bending_stiffness_nm2,
                                 ends=opts.span_ends)
     exc = _excitations(drive, loop, omega, speed, g.length_m)
-    bands: tuple[Band, ...] = ()
-    lk = kin.loops.get(loop.id)
-    if lk is not None and kin.source_speed_rad_s is not None:
-        r = np.asarray([drive.pulleys[p].radius_m for p in loop.pulleys])
+    bands = _bands(drive, loop, g, kin, rule, w_src, freqs, exc, opts)
+    sags = _sags(loop, g, P[0], static_P, opts.gravity) if opts.gravity is not None else {}
+    return SpanDynamics(c, down, up, voc, freqs, exc, bands, **sags)
 
-        def evaluate(w: float) -> tuple[NDArray[np.float64], dict[str, float]]:
-            Q = loop_torques(drive, kin, np.array([w]))[loop.id]
-            v = np.array([lk.speed_per_source * w])
-            Pw = rule.apply(ten.tension_steps(Q, r, b.strands), v)
-            Tw = Pw + m * v[:, None] ** 2
-            f = sp.span_frequencies(Pw, Tw, m, L[None, :], v[:, None], opts.modes,
-                                    bending_nm2=b.bending_stiffness_nm2, ends=opts.span_ends)[0]
-            ex = _excitations(drive, loop, lk.omega_per_source[None, :] * w, v, g.length_m)
-            return f, {k: float(x[0]) for k, x in ex.items()}
 
-        sweep = slice(1, None) if w_src.size > 1 else slice(0, 1)
-        bands = tuple(find_bands(w_src[sweep], freqs[sweep], {k: x[sweep] for k, x in exc.items()}, evaluate,
-                                 margin=opts.resonance_margin))
-    sag = static_sag = para = static_para = None
-    if opts.gravity is not None:
-        chord = g.span_end_m - g.span_start_m
-        gv = np.asarray(opts.gravity, dtype=float)
-        side = np.array([gv[1], -gv[0]])
-        cosb = np.abs(chord @ side) / np.hypot(chord[:, 0], chord[:, 1])
-        weight = m * sp.G0
-        sag = sp.catenary_sag(chord, gv, weight, P[0] * cosb)
-        static_sag = sp.catenary_sag(chord, gv, weight, static_P * cosb)
-        chord_len = np.hypot(chord[:, 0], chord[:, 1])
-        para = sp.parabolic_sag(weight, chord_len, P[0])
-        static_para = sp.parabolic_sag(weight, chord_len, static_P)
-    return SpanDynamics(c, down, up, voc, freqs, exc, bands, sag, static_sag, para, static_para)
+def _grip_findings(drive: Drive, loop: Loop, mech: LoopMechanics, opts: Options, findings: list[Finding]) -> None:
+    """``slip`` (the first operating point where grip fails), else ``grip-low`` (the
+    worst utilisation above the margin), and ``load-missing``, per pulley."""
+    w = mech.source_speed_rad_s
+    for i, pid in enumerate(loop.pulleys):
+        st = mech.grip_state[:, i]
+        u = np.where(np.isnan(mech.utilisation[:, i]), -np.inf, mech.utilisation[:, i])
+        if (st >= GripState.SLIP).any():
+            k = int(np.argmax(st >= GripState.SLIP))
+            state = mech.grip(k, i)
+            util = None if state is GripState.SLACK else float(mech.utilisation[k, i])
+            what = "its slack side goes slack" if util is None else f"grip utilisation {util:.2f} > 1"
+            findings.append(Finding(Severity.ERROR, "slip",
+                                    f"loop {loop.id}: pulley {pid} slips: {what} at {w[k]:.1f} rad/s "
+                                    f"of the source", refs=(loop.id, pid),
+                                    data={"speed_rad_s": float(w[k]), "grip": state.label,
+                                          "grip_utilisation": util}))
+        elif (u > opts.grip_margin).any():
+            k = int(np.argmax(u))
+            findings.append(Finding(Severity.WARNING, "grip-low",
+                                    f"loop {loop.id}: pulley {pid} uses {u[k]:.2f} of its grip at "
+                                    f"{w[k]:.1f} rad/s of the source (margin {opts.grip_margin:g})",
+                                    refs=(loop.id, pid),
+                                    data={"speed_rad_s": float(w[k]), "grip_utilisation": float(u[k]),
+                                          "grip_margin": opts.grip_margin}))
+        p = drive.pulleys[pid]
+        if (p.role is Role.DRIVEN and p.power_w is None and p.torque_nm is None
+                and mech.roles[i] == Role.DRIVEN.value and not np.any(mech.torque_nm[:, i])):
+            findings.append(Finding(Severity.WARNING, "load-missing",
+                                    f"loop {loop.id}: driven pulley {pid} has no power or torque; "
+                                    f"taken as unloaded", refs=(loop.id, pid)))
+
+
+def _speed_findings(loop: Loop, mech: LoopMechanics, findings: list[Finding]) -> None:
+    """``belt-speed``: the belt's top speed over the section's usual limit."""
+    vmax = loop.belt.max_speed_m_s
+    if vmax is None or mech.speed_m_s.max() <= vmax:
+        return
+    k = int(np.argmax(mech.speed_m_s))
+    w = float(mech.source_speed_rad_s[k])
+    findings.append(Finding(Severity.WARNING, "belt-speed",
+                            f"loop {loop.id}: belt speed {mech.speed_m_s[k]:.1f} m/s at {w:.1f} rad/s of the "
+                            f"source, above the {vmax:g} m/s usual for {loop.belt.section or 'this belt'}",
+                            refs=(loop.id,),
+                            data={"speed_m_s": float(mech.speed_m_s[k]), "max_speed_m_s": vmax,
+                                  "speed_rad_s": w, "section": loop.belt.section}))
+
+
+def _slack_findings(loop: Loop, mech: LoopMechanics, findings: list[Finding]) -> None:
+    """``slack-span``: a span's quasi-static tension reaches zero (at its lowest point)."""
+    w = mech.source_speed_rad_s
+    for k_span, sid in enumerate(loop.span_ids):
+        col = mech.quasi_static_n[:, k_span]
+        if np.isnan(col).all() or not (col <= 0).any():
+            continue
+        k = int(np.argmin(col))
+        findings.append(Finding(Severity.ERROR, "slack-span",
+                                f"loop {loop.id}: span {sid} goes slack (quasi-static tension "
+                                f"{col[k]:.1f} N) at {w[k]:.1f} rad/s of the source",
+                                refs=(loop.id, sid),
+                                data={"speed_rad_s": float(w[k]), "quasi_static_tension_n": float(col[k])}))
 
 
 def _loop_findings(drive: Drive, loop: Loop, mech: LoopMechanics, opts: Options, kin: Kinematics,
                    findings: list[Finding]) -> None:
     """Grip, slack, speed and load findings of one loop, each at its worst operating point."""
-    n = len(loop.pulleys)
+    if kin.source_speed_rad_s is not None:
+        _grip_findings(drive, loop, mech, opts, findings)
+        _speed_findings(loop, mech, findings)
+    _slack_findings(loop, mech, findings)
+
+
+def _near_critical_findings(loop: Loop, mech: LoopMechanics, dyn: SpanDynamics, opts: Options,
+                            findings: list[Finding]) -> None:
     w = mech.source_speed_rad_s
-    moving = kin.source_speed_rad_s is not None
-
-    def at_rpm(k: int) -> float:
-        return _rpm(float(w[k]))
-
-    if moving:
-        for i, pid in enumerate(loop.pulleys):
-            st = mech.grip_state[:, i]
-            u = np.where(np.isnan(mech.utilisation[:, i]), -np.inf, mech.utilisation[:, i])
-            if (st >= 2).any():
-                k = int(np.argmax(st >= 2))
-                what = "its slack side goes slack" if st[k] == 3 else \
-                    f"grip utilisation {mech.utilisation[k, i]:.2f} > 1"
-                findings.append(Finding(Severity.ERROR, "slip",
-                                        f"loop {loop.id}: pulley {pid} slips: {what} at {at_rpm(k):.0f} rpm "
-                                        f"of the source", refs=(loop.id, pid),
-                                        data={"speed_rpm": at_rpm(k), "grip": GRIP_STATES[st[k]]}))
-            elif (u > opts.grip_margin).any():
-                k = int(np.argmax(u))
-                findings.append(Finding(Severity.WARNING, "grip-low",
-                                        f"loop {loop.id}: pulley {pid} uses {u[k]:.2f} of its grip at "
-                                        f"{at_rpm(k):.0f} rpm of the source (margin {opts.grip_margin:g})",
-                                        refs=(loop.id, pid),
-                                        data={"speed_rpm": at_rpm(k), "grip_utilisation": float(u[k])}))
-            p = drive.pulleys[pid]
-            if (p.role is Role.DRIVEN and p.power_w is None and p.torque_nm is None
-                    and mech.roles[i] == Role.DRIVEN.value and not np.any(mech.torque_nm[:, i])):
-                findings.append(Finding(Severity.WARNING, "load-missing",
-                                        f"loop {loop.id}: driven pulley {pid} has no power or torque; "
-                                        f"taken as unloaded", refs=(loop.id, pid)))
-        vmax = loop.belt.max_speed_m_s
-        if vmax is not None and mech.speed_m_s.max() > vmax:
-            k = int(np.argmax(mech.speed_m_s))
-            findings.append(Finding(Severity.WARNING, "belt-speed",
-                                    f"loop {loop.id}: belt speed {mech.speed_m_s[k]:.1f} m/s at "
-                                    f"{at_rpm(k):.0f} rpm of the source, above the {vmax:g} m/s usual for "
-                                    f"{loop.belt.section or 'this belt'}", refs=(loop.id,),
-                                    data={"speed_m_s": float(mech.speed_m_s[k]), "max_speed_m_s": vmax}))
-    for k_span in range(n):
-        col = mech.quasi_static_n[:, k_span]
-        if np.isnan(col).all():
+    for k, sid in enumerate(loop.span_ids):
+        col = np.where(np.isfinite(dyn.v_over_c[:, k]), dyn.v_over_c[:, k], -np.inf)
+        if not (col > opts.near_critical).any() or not (mech.quasi_static_n[:, k] > 0).all():
             continue
-        if (col <= 0).any():
-            k = int(np.argmin(col))
-            sid = f"{loop.pulleys[k_span]}-{loop.pulleys[(k_span + 1) % n]}"
-            findings.append(Finding(Severity.ERROR, "slack-span",
-                                    f"loop {loop.id}: span {sid} goes slack (quasi-static tension "
-                                    f"{col[k]:.1f} N) at {at_rpm(k):.0f} rpm of the source",
-                                    refs=(loop.id, sid),
-                                    data={"speed_rpm": at_rpm(k), "quasi_static_tension_n": float(col[k])}))
+        j = int(np.argmax(col))
+        findings.append(Finding(Severity.WARNING, "near-critical",
+                                f"loop {loop.id}: span {sid} runs at {col[j]:.2f} of its wave speed at "
+                                f"{w[j]:.1f} rad/s of the source (above {opts.near_critical:g}); its "
+                                f"frequencies have fallen to {1 - col[j] ** 2:.0%} of their value at rest",
+                                refs=(loop.id, sid),
+                                data={"v_over_c": float(col[j]), "speed_rad_s": float(w[j]),
+                                      "near_critical": opts.near_critical}))
+
+
+def _resonance_findings(loop: Loop, dyn: SpanDynamics, findings: list[Finding]) -> None:
+    sids = loop.span_ids
+    for band in dyn.bands:
+        sid = sids[band.span]
+        findings.append(Finding(
+            Severity.WARNING, "resonance",
+            f"loop {loop.id}: span {sid} mode {band.mode} meets {band.excitation} ({band.kind}) from "
+            f"{band.speed_lo:.1f} to {band.speed_hi:.1f} rad/s of the source, "
+            f"crossing at {band.crossing:.2f} rad/s ({band.frequency_hz:.2f} Hz)",
+            refs=(loop.id, sid),
+            data={"speed_rad_s": band.crossing, "speed_range_rad_s": [band.speed_lo, band.speed_hi],
+                  "mode": band.mode, "kind": band.kind, "excitation": band.excitation,
+                  "frequency_hz": band.frequency_hz, "margin_left": band.margin_left}))
+
+
+def _sag_findings(loop: Loop, dyn: SpanDynamics, opts: Options, findings: list[Finding]) -> None:
+    """``sag``: a span's sag over ``sag_limit`` of its length, running or else at rest."""
+    if dyn.sag_m is None or dyn.static_sag_m is None or dyn.sag_ratio is None or dyn.static_sag_ratio is None:
+        return
+    for k, sid in enumerate(loop.span_ids):
+        for state, sag, ratio in (("running", dyn.sag_m[k], dyn.sag_ratio[k]),
+                                  ("at rest", dyn.static_sag_m[k], dyn.static_sag_ratio[k])):
+            if np.isfinite(sag) and ratio > opts.sag_limit:
+                findings.append(Finding(Severity.WARNING, "sag",
+                                        f"loop {loop.id}: span {sid} sags {sag:.4g} m {state}, "
+                                        f"{ratio:.1%} of its length (limit {opts.sag_limit:.1%})",
+                                        refs=(loop.id, sid),
+                                        data={"sag_m": float(sag), "sag_ratio": float(ratio), "state": state,
+                                              "sag_limit": opts.sag_limit}))
+                break
+
+
+def _span_weight_findings(loop: Loop, g: geo.LoopGeometry, mech: LoopMechanics, gravity: tuple[float, float],
+                          findings: list[Finding]) -> None:
+    """``span-weight``: a span's weight over its rise above a fraction of its tension."""
+    gv = np.asarray(gravity, dtype=float)
+    dh = np.abs((g.span_end_m - g.span_start_m) @ gv)
+    weight = mech.mass_kg_m * sp.G0 * dh
+    for k, sid in enumerate(loop.span_ids):
+        P0 = mech.quasi_static_n[0, k]
+        if np.isfinite(P0) and P0 > 0 and weight[k] > SPAN_WEIGHT_NOTE * P0:
+            findings.append(Finding(Severity.NOTE, "span-weight",
+                                    f"loop {loop.id}: span {sid} weighs {weight[k]:.1f} N over its rise, "
+                                    f"over {SPAN_WEIGHT_NOTE:.0%} of its tension; the tension steps leave "
+                                    f"span weight out", refs=(loop.id, sid),
+                                    data={"weight_n": float(weight[k]), "quasi_static_tension_n": float(P0)}))
 
 
 def _dynamics_findings(drive: Drive, loop: Loop, g: geo.LoopGeometry, mech: LoopMechanics, opts: Options,
@@ -503,52 +719,11 @@ def _dynamics_findings(drive: Drive, loop: Loop, g: geo.LoopGeometry, mech: Loop
     dyn = mech.dynamics
     if dyn is None:
         return
-    n = len(loop.pulleys)
-    sids = [f"{loop.pulleys[k]}-{loop.pulleys[(k + 1) % n]}" for k in range(n)]
-    w = mech.source_speed_rad_s
-    for k in range(n):
-        col = np.where(np.isfinite(dyn.v_over_c[:, k]), dyn.v_over_c[:, k], -np.inf)
-        if (col > opts.near_critical).any() and (mech.quasi_static_n[:, k] > 0).all():
-            j = int(np.argmax(col))
-            findings.append(Finding(Severity.WARNING, "near-critical",
-                                    f"loop {loop.id}: span {sids[k]} runs at {col[j]:.2f} of its wave speed at "
-                                    f"{_rpm(w[j]):.0f} rpm of the source (above {opts.near_critical:g}); its "
-                                    f"frequencies have fallen to {1 - col[j] ** 2:.0%} of their value at rest",
-                                    refs=(loop.id, sids[k]),
-                                    data={"v_over_c": float(col[j]), "speed_rpm": _rpm(float(w[j]))}))
-    for band in dyn.bands:
-        sid = sids[band.span]
-        findings.append(Finding(
-            Severity.WARNING, "resonance",
-            f"loop {loop.id}: span {sid} mode {band.mode} meets {band.excitation} ({band.kind}) from "
-            f"{_rpm(band.speed_lo):.0f} to {_rpm(band.speed_hi):.0f} rpm of the source, "
-            f"crossing at {_rpm(band.crossing):.1f} rpm ({band.frequency_hz:.2f} Hz)",
-            refs=(loop.id, sid),
-            data={"speed_rpm": _rpm(band.crossing), "speed_range_rpm": [_rpm(band.speed_lo), _rpm(band.speed_hi)],
-                  "mode": band.mode, "kind": band.kind, "excitation": band.excitation,
-                  "frequency_hz": band.frequency_hz, "margin_left": band.margin_left}))
-    if dyn.sag_m is not None and opts.gravity is not None:
-        L = g.span_length_m
-        for k in range(n):
-            for label, sag in (("running", dyn.sag_m[k]), ("at rest", dyn.static_sag_m[k])):
-                if np.isfinite(sag) and sag > opts.sag_limit * L[k]:
-                    findings.append(Finding(Severity.WARNING, "sag",
-                                            f"loop {loop.id}: span {sids[k]} sags {sag * 1e3:.1f} mm {label}, "
-                                            f"{sag / L[k]:.1%} of its length (limit {opts.sag_limit:.1%})",
-                                            refs=(loop.id, sids[k]),
-                                            data={"sag_m": float(sag), "sag_ratio": float(sag / L[k]),
-                                                  "state": label}))
-                    break
-        gv = np.asarray(opts.gravity, dtype=float)
-        dh = np.abs((g.span_end_m - g.span_start_m) @ gv)
-        weight = mech.mass_kg_m * sp.G0 * dh
-        for k in range(n):
-            P0 = mech.quasi_static_n[0, k]
-            if np.isfinite(P0) and P0 > 0 and weight[k] > SPAN_WEIGHT_NOTE * P0:
-                findings.append(Finding(Severity.NOTE, "span-weight",
-                                        f"loop {loop.id}: span {sids[k]} weighs {weight[k]:.1f} N over its rise, "
-                                        f"over {SPAN_WEIGHT_NOTE:.0%} of its tension; the tension steps leave "
-                                        f"span weight out", refs=(loop.id, sids[k])))
+    _near_critical_findings(loop, mech, dyn, opts, findings)
+    _resonance_findings(loop, dyn, findings)
+    if opts.gravity is not None and dyn.sag_m is not None:
+        _sag_findings(loop, dyn, opts, findings)
+        _span_weight_findings(loop, g, mech, opts.gravity, findings)
 
 
 def _power_findings(drive: Drive, kin: Kinematics, results: dict[str, LoopResult],
@@ -565,33 +740,50 @@ def _power_findings(drive: Drive, kin: Kinematics, results: dict[str, LoopResult
         pid = lr.loop.pulleys[lk.driver]
         p = drive.pulleys[pid]
         delivered = float(mech.power_w[0, lk.driver])
-        if p.power_w is not None and abs(delivered - p.power_w) > 0.02 * max(p.power_w, 1e-9):
+        if p.power_w is not None and abs(delivered - p.power_w) > POWER_TOLERANCE * max(p.power_w, 1e-9):
             findings.append(Finding(Severity.WARNING, "power-mismatch",
-                                    f"loop {lid}: driver {pid} is given {p.power_w / 1e3:.3g} kW but its loads "
-                                    f"take {delivered / 1e3:.3g} kW", refs=(lid, pid),
+                                    f"loop {lid}: driver {pid} is given {p.power_w:.4g} W but its loads "
+                                    f"take {delivered:.4g} W", refs=(lid, pid),
                                     data={"given_w": p.power_w, "loads_w": delivered}))
         rating = p.rating_w if p.rating_w is not None else (src.rating_w if pid == src.id else None)
         peak = float(mech.power_w[:, lk.driver].max())
         if rating is not None and peak > rating * (1 + 1e-9):
             findings.append(Finding(Severity.WARNING, "power-mismatch",
-                                    f"loop {lid}: driver {pid} must deliver {peak / 1e3:.3g} kW, above its "
-                                    f"rating of {rating / 1e3:.3g} kW", refs=(lid, pid),
+                                    f"loop {lid}: driver {pid} must deliver {peak:.4g} W, above its "
+                                    f"rating of {rating:.4g} W", refs=(lid, pid),
                                     data={"rating_w": rating, "loads_w": peak}))
 
 
-def analyse(drive: Drive, options: Options = Options()) -> Results:
-    """Compute the results of ``drive``.
+def _shaft_load(shaft: tuple[str, ...], kin: Kinematics, loops: dict[str, LoopResult],
+                w_src: NDArray[np.float64]) -> ShaftLoad:
+    """The vector sum of the hub loads on the pulleys of one shaft, per operating point and at rest."""
+    hub = static = None
+    speed: float | None = None
+    for lid, lr in loops.items():
+        mech = lr.mechanics
+        if mech is None:
+            continue
+        for i, pid in enumerate(lr.loop.pulleys):
+            if pid not in shaft:
+                continue
+            hub = mech.hub_n[:, i, :] if hub is None else hub + mech.hub_n[:, i, :]
+            static = mech.static_hub_n[i] if static is None else static + mech.static_hub_n[i]
+            if speed is None and kin.source is not None and lid in kin.loops:
+                speed = float(mech.omega_rad_s[0, i])
+    if hub is None:
+        return ShaftLoad(shaft, speed, None, math.nan, math.nan, None)
+    top, at = _peak(np.hypot(hub[:, 0], hub[:, 1]), w_src)
+    return ShaftLoad(shaft, speed, hub, float(top), float(at), static)
 
-    Examples
-    --------
-    >>> from physics.model import Drive, Loop, Pulley, Side
-    >>> d = Drive({"A": Pulley("A", (0.0, 0.0), 0.2), "B": Pulley("B", (0.5, 0.0), 0.05)},
-    ...           (Loop("L1", ("A", "B"), (1, 1), (Side.INSIDE,) * 2, (False, False)),))
-    >>> round(analyse(d).loops["L1"].geometry.length_m, 6)
-    1.830745
-    """
-    findings: list[Finding] = []
-    loops: dict[str, LoopResult] = {}
+
+def _shaft_loads(drive: Drive, kin: Kinematics, loops: dict[str, LoopResult],
+                 w_src: NDArray[np.float64]) -> tuple[ShaftLoad, ...]:
+    """A :class:`ShaftLoad` for every shaft of two or more pulleys, in the drive's order."""
+    return tuple(_shaft_load(tuple(s), kin, loops, w_src) for s in drive.shafts if len(s) > 1)
+
+
+def _geometries(drive: Drive, findings: list[Finding]) -> dict[str, geo.LoopGeometry]:
+    """Every loop's exact geometry; ``no-tangent`` where two pulleys overlap."""
     geoms: dict[str, geo.LoopGeometry] = {}
     for loop in drive.loops:
         c, r, t = loop_arrays(drive, loop)
@@ -605,6 +797,36 @@ def analyse(drive: Drive, options: Options = Options()) -> Results:
                 f"loop {loop.id}: no belt span can join {loop.pulleys[k]} and "
                 f"{loop.pulleys[(k + 1) % n]} with these contact sides (the circles overlap)",
                 refs=(loop.id, loop.pulleys[k], loop.pulleys[(k + 1) % n])))
+    return geoms
+
+
+def analyse(drive: Drive, options: Options = Options()) -> Results:
+    """Compute the results of ``drive``.
+
+    Parameters
+    ----------
+    drive
+        The drive, SI units.
+    options
+        Analysis options.
+
+    Returns
+    -------
+    Results
+        Per loop its geometry and mechanics, the resultant load on every shared shaft,
+        and the physics findings (numbers in SI in their ``data``).
+
+    Examples
+    --------
+    >>> from physics.model import Drive, Loop, Pulley, Side
+    >>> d = Drive({"A": Pulley("A", (0.0, 0.0), 0.2), "B": Pulley("B", (0.5, 0.0), 0.05)},
+    ...           (Loop("L1", ("A", "B"), (1, 1), (Side.INSIDE,) * 2, (False, False)),))
+    >>> round(analyse(d).loops["L1"].geometry.length_m, 6)
+    1.830745
+    """
+    findings: list[Finding] = []
+    loops: dict[str, LoopResult] = {}
+    geoms = _geometries(drive, findings)
     kin = solve_kinematics(drive)
     findings.extend(kin.findings)
     w_src = _source_speeds(kin, options.range_points)
@@ -622,4 +844,4 @@ def analyse(drive: Drive, options: Options = Options()) -> Results:
             _dynamics_findings(drive, loop, g, mech, options, findings)
         loops[loop.id] = LoopResult(loop, g, mech)
     _power_findings(drive, kin, loops, findings)
-    return Results(drive, loops, findings, kin, options)
+    return Results(drive, loops, findings, kin, options, _shaft_loads(drive, kin, loops, w_src))

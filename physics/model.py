@@ -7,9 +7,12 @@ anything else (a script, a notebook, a test) can build one by hand.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from enum import Enum
+from enum import Enum, StrEnum
+from typing import TypeVar
 
-__all__ = ["Role", "Side", "Pulley", "Belt", "Loop", "Drive"]
+__all__ = ["Role", "Side", "Tensioning", "SpanEnds", "choice", "Pulley", "Belt", "Loop", "Drive"]
+
+_E = TypeVar("_E", bound=Enum)
 
 
 class Role(str, Enum):
@@ -24,6 +27,67 @@ class Side(str, Enum):
 
     INSIDE = "inside"
     BACK = "back"
+
+
+class Tensioning(StrEnum):
+    """How a loop's tension level is set.
+
+    ``fixed``: fixed centres, the install tension set at rest (the centrifugal part
+    ``m v**2`` comes out of the quasi-static tension as the belt speeds up);
+    ``constant``: the textbook model, the mean quasi-static tension held at the install
+    tension; ``tensioner``: a tensioner idler sets the tension of its two spans (never
+    given on a :class:`Belt`: a pulley with role ``tensioner`` makes a loop one).
+    """
+
+    FIXED = "fixed"
+    CONSTANT = "constant"
+    TENSIONER = "tensioner"
+
+
+class SpanEnds(StrEnum):
+    """End conditions of a free span in the beam model (with bending stiffness)."""
+
+    PINNED = "pinned"
+    CLAMPED = "clamped"
+
+
+def choice(kind: type[_E], value: _E | str, what: str, allowed: tuple[_E, ...] | None = None, *,
+           hint: str = "") -> _E:
+    """``value`` as a member of the enum ``kind``, checked once at the edge.
+
+    Parameters
+    ----------
+    kind
+        The enum class.
+    value
+        A member, or its string value (exact spelling).
+    what
+        The option's name, for the message (``"Belt.tensioning"``).
+    allowed
+        The members accepted here (default: all of ``kind``).
+    hint
+        Appended to the message.
+
+    Raises
+    ------
+    ValueError
+        Naming the value and every allowed one.
+
+    Examples
+    --------
+    >>> choice(SpanEnds, "clamped", "span_ends")
+    <SpanEnds.CLAMPED: 'clamped'>
+    >>> choice(Tensioning, "fixd", "tensioning")
+    Traceback (most recent call last):
+    ...
+    ValueError: tensioning = 'fixd': expected one of 'fixed', 'constant', 'tensioner'
+    """
+    members = tuple(kind) if allowed is None else allowed
+    for m in members:
+        if value is m or (isinstance(value, str) and value == m.value):
+            return m
+    names = ", ".join(repr(m.value) for m in members)
+    raise ValueError(f"{what} = {value!r}: expected one of {names}{hint}")
 
 
 @dataclass(frozen=True, slots=True)
@@ -73,12 +137,17 @@ class Belt:
     groove_angle_rad: float | None = None
     strands: int = 1
     height_m: float | None = None
-    tensioning: str = "fixed"
+    tensioning: Tensioning = Tensioning.FIXED   # fixed or constant; strings accepted, checked here
     install_tension_n: float | None = None
     length_m: float | None = None
     stock_lengths_m: tuple[float, ...] | None = None
     max_speed_m_s: float | None = None
     min_pitch_diameter_m: float | None = None
+
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "tensioning", choice(Tensioning, self.tensioning, "Belt.tensioning",
+                                                      (Tensioning.FIXED, Tensioning.CONSTANT),
+                                                      hint=" (a pulley with role 'tensioner' sets a loop's tension)"))
 
 
 @dataclass(frozen=True, slots=True)

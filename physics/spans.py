@@ -27,6 +27,8 @@ from functools import lru_cache
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
+from .model import SpanEnds, choice
+
 __all__ = ["wave_speeds", "string_frequencies", "beam_frequencies", "span_frequencies",
            "pinned_beam_frequencies", "catenary_sag", "parabolic_sag", "GALERKIN_TERMS", "G0"]
 
@@ -82,7 +84,7 @@ def pinned_beam_frequencies(tension_n: ArrayLike, mass_kg_m: float, length_m: Ar
 
 
 @lru_cache(maxsize=8)
-def _basis(ends: str, terms: int) -> tuple[NDArray[np.float64], ...]:
+def _basis(ends: SpanEnds, terms: int) -> tuple[NDArray[np.float64], ...]:
     """Dimensionless Galerkin matrices on [0, 1]: mass, gyroscopic, string and bending
     stiffness, each ``(terms, terms)``, with the mass already factored out (Cholesky),
     so the equation reads ``y'' + (2 v / L) G y' + (P K1 / (m L**2) + EI K2 / (m L**4)) y = 0``.
@@ -96,12 +98,10 @@ def _basis(ends: str, terms: int) -> tuple[NDArray[np.float64], ...]:
     # convergence, well conditioned. Pinned ends: bubble x (1 - x) (w = 0; w'' = 0 is the
     # natural condition of the variational form). Clamped ends: (x (1 - x))**2 (w = w' = 0).
     leg = np.polynomial.legendre
-    if ends == "pinned":
+    if ends is SpanEnds.PINNED:
         bubble = leg.poly2leg([1.0, 0.0, -1.0]) / 4.0
-    elif ends == "clamped":
-        bubble = leg.poly2leg([1.0, 0.0, -2.0, 0.0, 1.0]) / 16.0
     else:
-        raise ValueError(f"ends = {ends!r}: expected 'pinned' or 'clamped'")
+        bubble = leg.poly2leg([1.0, 0.0, -2.0, 0.0, 1.0]) / 16.0
     rows = [leg.legmul(bubble, np.eye(terms)[k]) for k in range(terms)]
     phi = np.array([leg.legval(x, c) for c in rows])
     d1 = np.array([2.0 * leg.legval(x, leg.legder(c)) for c in rows])
@@ -123,7 +123,7 @@ def _basis(ends: str, terms: int) -> tuple[NDArray[np.float64], ...]:
 
 def beam_frequencies(quasi_static_n: ArrayLike, mass_kg_m: float, length_m: ArrayLike,
                      bending_nm2: float, speed_m_s: ArrayLike, modes: int = 5, *,
-                     ends: str = "pinned", terms: int | None = None) -> NDArray[np.float64]:
+                     ends: SpanEnds | str = SpanEnds.PINNED, terms: int | None = None) -> NDArray[np.float64]:
     """Natural frequencies of axially moving tensioned beams by Galerkin's method, Hz.
 
     Parameters broadcast together (e.g. ``(K, n)`` operating points by spans); the result
@@ -143,7 +143,7 @@ def beam_frequencies(quasi_static_n: ArrayLike, mass_kg_m: float, length_m: Arra
     shape = P.shape
     terms = terms or 2 * max(modes, 5) + GALERKIN_EXTRA
     Pf, Lf, vf = P.reshape(-1), L.reshape(-1), v.reshape(-1)
-    G, K1, K2, lam_star = _basis(ends, terms)
+    G, K1, K2, lam_star = _basis(choice(SpanEnds, ends, "ends"), terms)
     out = np.zeros((Pf.size, modes))
     if Pf.size == 0:
         return out.reshape(*shape, modes)
@@ -168,9 +168,10 @@ def beam_frequencies(quasi_static_n: ArrayLike, mass_kg_m: float, length_m: Arra
 
 def span_frequencies(quasi_static_n: ArrayLike, tension_n: ArrayLike, mass_kg_m: float, length_m: ArrayLike,
                      speed_m_s: ArrayLike, modes: int = 5, *, bending_nm2: float | None = None,
-                     ends: str = "pinned") -> NDArray[np.float64]:
+                     ends: SpanEnds | str = SpanEnds.PINNED) -> NDArray[np.float64]:
     """Frequencies of moving spans: the exact string formula without ``EI``, the Galerkin
-    beam with it."""
+    beam with it (``ends``: :class:`~physics.model.SpanEnds` or its string, checked)."""
+    ends = choice(SpanEnds, ends, "ends")
     if bending_nm2:
         return beam_frequencies(quasi_static_n, mass_kg_m, length_m, bending_nm2, speed_m_s, modes, ends=ends)
     P, T, L = np.broadcast_arrays(np.asarray(quasi_static_n, float), np.asarray(tension_n, float),

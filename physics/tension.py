@@ -19,14 +19,37 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from enum import IntEnum
 
 import numpy as np
 from numpy.typing import NDArray
 
 from .geometry import LoopGeometry
+from .model import Tensioning
 
-__all__ = ["Tensioner", "span_weights", "tension_steps", "quasi_static_tension", "grip",
+__all__ = ["GripState", "Tensioner", "span_weights", "tension_steps", "quasi_static_tension", "grip",
            "required_level", "hub_loads", "tensioner_gain", "capstan_ratio", "wedge_friction"]
+
+
+class GripState(IntEnum):
+    """Grip at a pulley. Integer-valued so a ``(K, n)`` array of states stays numeric
+    (``state >= GripState.SLIP`` is a grip failure); :attr:`label` is the report's word.
+    """
+
+    NO_TORQUE = 0
+    OK = 1
+    SLIP = 2
+    SLACK = 3
+
+    @property
+    def label(self) -> str:
+        """``no-torque``, ``ok``, ``slip`` or ``slack``."""
+        return self.name.lower().replace("_", "-")
+
+    @property
+    def has_utilisation(self) -> bool:
+        """Whether a grip utilisation exists (``ok`` or ``slip``)."""
+        return self in (GripState.OK, GripState.SLIP)
 
 
 @dataclass(frozen=True, slots=True)
@@ -95,7 +118,7 @@ def tensioner_gain(geom: LoopGeometry, centers_m: NDArray[np.float64], t: Tensio
     return float(np.hypot(e[0], e[1]))
 
 
-def quasi_static_tension(delta: NDArray[np.float64], weights: NDArray[np.float64], *, tensioning: str,
+def quasi_static_tension(delta: NDArray[np.float64], weights: NDArray[np.float64], *, tensioning: Tensioning,
                          install_tension_n: float | None, mass_kg_m: float, speed_m_s: NDArray[np.float64],
                          tensioner: Tensioner | None = None, tensioner_p_n: float | None = None
                          ) -> NDArray[np.float64]:
@@ -106,7 +129,7 @@ def quasi_static_tension(delta: NDArray[np.float64], weights: NDArray[np.float64
         level = tensioner_p_n - 0.5 * (delta[:, i - 1] + delta[:, i])
     else:
         mean = delta @ weights / weights.sum()
-        target = install_tension_n - (mass_kg_m * v * v if tensioning == "fixed" else 0.0)
+        target = install_tension_n - (mass_kg_m * v * v if tensioning is Tensioning.FIXED else 0.0)
         level = target - mean
     return level[:, None] + delta
 
@@ -137,8 +160,8 @@ def grip(P: NDArray[np.float64], Q: NDArray[np.float64], mu: NDArray[np.float64]
          wrap_rad: NDArray[np.float64]) -> tuple[NDArray[np.float64], NDArray[np.int8]]:
     """Grip utilisation ``ln(P_t / P_s) / (mu theta)`` and a state per pulley, shape ``(K, n)``.
 
-    State: 0 ``no-torque``, 1 ``ok`` (utilisation <= 1), 2 ``slip``, 3 ``slack`` (slack
-    side at or below zero: no ratio exists; utilisation NaN).
+    State (:class:`GripState` values): ``NO_TORQUE``, ``OK`` (utilisation <= 1), ``SLIP``,
+    ``SLACK`` (slack side at or below zero: no ratio exists; utilisation NaN).
     """
     P_arr = np.roll(P, 1, axis=1)
     tight = np.maximum(P_arr, P)
@@ -146,8 +169,10 @@ def grip(P: NDArray[np.float64], Q: NDArray[np.float64], mu: NDArray[np.float64]
     loaded = np.abs(Q) > 0
     with np.errstate(divide="ignore", invalid="ignore"):
         u = np.log(tight / slack) / (mu * wrap_rad)[None, :]
-    state = np.where(~loaded, 0, np.where(slack <= 0, 3, np.where(u > 1.0, 2, 1))).astype(np.int8)
-    u = np.where((state == 1) | (state == 2), u, np.nan)
+    state = np.where(~loaded, GripState.NO_TORQUE,
+                     np.where(slack <= 0, GripState.SLACK,
+                              np.where(u > 1.0, GripState.SLIP, GripState.OK))).astype(np.int8)
+    u = np.where((state == GripState.OK) | (state == GripState.SLIP), u, np.nan)
     return u, state
 
 
