@@ -18,6 +18,7 @@ from physics.findings import Finding, Severity
 from physics.model import Side
 
 from .recognize import layer_matches
+from .path_checks import check_drawn_path, span_points_drawing
 from .route import Model
 
 __all__ = ["CHECKS", "run_checks", "span_points_drawing"]
@@ -32,26 +33,6 @@ UNIT_CANDIDATES = ("mm", "in", "cm", "m", "ft")
 
 def _fmt(p: tuple[float, float]) -> str:
     return f"({p[0]:.6g}, {p[1]:.6g})"
-
-
-def _cross(a: np.ndarray, b: np.ndarray) -> float:
-    return float(a[0] * b[1] - a[1] * b[0])
-
-
-def span_points_drawing(model: Model, results: Results, loop_id: str) -> tuple[np.ndarray, np.ndarray] | None:
-    """Exact span start and end points of a loop in drawing units, shape ``(n, 2)`` each."""
-    g = results.loops[loop_id].geometry
-    if g is None:
-        return None
-    o = np.asarray(model.origin)
-    return o + g.span_start_m / model.factor, o + g.span_end_m / model.factor
-
-
-def _seg_points(model: Model, s: int, fwd: bool) -> tuple[np.ndarray, np.ndarray]:
-    S = model.drawing.segments
-    a = np.array([S.x0[s], S.y0[s]])
-    b = np.array([S.x1[s], S.y1[s]])
-    return (a, b) if fwd else (b, a)
 
 
 def check_twists(model: Model, results: Results) -> list[Finding]:
@@ -75,73 +56,6 @@ def check_twists(model: Model, results: Results) -> list[Finding]:
             out.append(Finding(Severity.NOTE, "crossed-spans",
                                f"loop {lp.id}: spans {', '.join(ids)} cross; a half twist in each",
                                at=at, refs=(lp.id, *ids)))
-    return out
-
-
-def check_tangency(model: Model, results: Results) -> list[Finding]:
-    """Drawn spans against the exact tangents: angle, offset, and ends short of the pulley."""
-    out: list[Finding] = []
-    tol = model.tol
-    for lp in model.loops:
-        if lp.chain is None:
-            continue
-        pts = span_points_drawing(model, results, lp.id)
-        if pts is None:
-            continue
-        starts, ends = pts
-        n = len(lp.pulleys)
-        for k, span in enumerate(lp.chain.spans):
-            lines = [(s, f) for s, f in span.pieces if model.drawing.segments.sweep[s] == 0.0]
-            if not lines:
-                continue
-            S, E = starts[k], ends[k]
-            u = E - S
-            length = float(np.hypot(*u))
-            if length == 0:
-                continue
-            u = u / length
-            r_min = min(lp.radii[k], lp.radii[(k + 1) % n])
-            worst_ang = 0.0
-            worst_off = 0.0
-            for s, f in lines:
-                a, b = _seg_points(model, s, f)
-                d = b - a
-                dl = float(np.hypot(*d))
-                if dl == 0:
-                    continue
-                ang = math.degrees(math.atan2(abs(_cross(u, d / dl)), float(np.dot(u, d / dl))))
-                worst_ang = max(worst_ang, ang)
-                for p in (a, b):
-                    worst_off = max(worst_off, abs(_cross(u, p - S)))
-            a0, _ = _seg_points(model, *lines[0])
-            _, b1 = _seg_points(model, *lines[-1])
-            sid = f"{lp.pulleys[k]}-{lp.pulleys[(k + 1) % n]}"
-            if worst_ang > tol.tangent_deg or worst_off > tol.tangent_offset * r_min:
-                at = a0 if np.hypot(*(a0 - S)) <= np.hypot(*(b1 - E)) else b1
-                out.append(Finding(
-                    Severity.ERROR, "span-not-tangent",
-                    f"loop {lp.id}, span {sid}: drawn {worst_ang:.3g} deg and {worst_off:.3g} units off "
-                    f"the tangent from {_fmt(tuple(S))} to {_fmt(tuple(E))} (allowed {tol.tangent_deg:g} deg, "
-                    f"{tol.tangent_offset * r_min:.3g} units)",
-                    at=(float(at[0]), float(at[1])), refs=(lp.id, sid),
-                    data={"angle_deg": worst_ang, "offset": worst_off,
-                          "tangent_start": [float(S[0]), float(S[1])], "tangent_end": [float(E[0]), float(E[1])]}))
-                continue
-            # ends of spans whose wrap is left to the circle must reach the tangent point
-            # (a span drawn a little long, past it, is sloppy but harmless)
-            for drawn_end, exact, wrap, inward in ((a0, S, lp.chain.wraps[k], u),
-                                                   (b1, E, lp.chain.wraps[(k + 1) % n], -u)):
-                if wrap.drawn:
-                    continue
-                miss = float(np.dot(drawn_end - exact, inward))
-                limit = float(tol.join_abs(wrap.radius, float(np.abs(exact).max())))
-                if miss > max(limit, tol.tangent_offset * wrap.radius):
-                    out.append(Finding(
-                        Severity.ERROR, "path-gap",
-                        f"loop {lp.id}, span {sid}: drawn end {_fmt(tuple(drawn_end))} is {miss:.6g} units "
-                        f"from its tangent point {_fmt(tuple(exact))}",
-                        at=(float(drawn_end[0]), float(drawn_end[1])), refs=(lp.id, sid),
-                        data={"gap": miss}))
     return out
 
 
@@ -298,7 +212,7 @@ def check_units(model: Model, results: Results) -> list[Finding]:
 
 
 CHECKS: list[Callable[[Model, Results], list[Finding]]] = [
-    check_twists, check_tangency, check_pulley_crossing, check_keep_out, check_min_diameter,
+    check_twists, check_drawn_path, check_pulley_crossing, check_keep_out, check_min_diameter,
     check_units,
 ]
 

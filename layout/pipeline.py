@@ -173,6 +173,14 @@ def check_document(doc: Any, *, spec: str | Path | None = None, grip_margin: flo
     return _analyse(read_document(doc, path=name), sp, spec_file, grip_margin)
 
 
+def _one_root_cause(findings: list[Finding]) -> list[Finding]:
+    """Drop an ``ambiguous-drive`` error that only repeats a broken path: the speed source's
+    belt did not form because its path is open or its route impossible, already an error."""
+    broken = {r for f in findings if f.code in ("path-open", "route-impossible") for r in f.refs}
+    return [f for f in findings
+            if not (f.code == "ambiguous-drive" and f.refs and set(f.refs) <= broken)]
+
+
 def _analyse(drawing: Drawing, sp: Spec, spec_file: str | None, grip_margin: float | None) -> Report:
     if drawing.entity_count == 0 and drawing.own_count > 0:
         raise FatalInput(f"{drawing.path}: holds only spanwise's own annotations (an overlay or a stripped "
@@ -183,5 +191,6 @@ def _analyse(drawing: Drawing, sp: Spec, spec_file: str | None, grip_margin: flo
     findings = list(model.findings)
     findings.extend(locate(model, results, word(f)) for f in results.findings)
     findings.extend(run_checks(model, results))
+    findings = _one_root_cause(findings)
     findings.sort(key=lambda f: _ORDER[f.severity])
     return Report(model, results, findings, spec_file, _sha256(spec_file), VERSION, drawing.document)

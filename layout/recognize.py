@@ -2,26 +2,38 @@
 
 A belt path may be drawn as a closed chain of lines and arcs (in any order and
 direction), as closed polylines with bulges, or as the free spans alone with the wraps
-left to the pulley circles. All three are handled by one mechanism:
+left to the pulley circles. All three go through the same stages, over one record of
+the pieces' ends (:class:`PathEnds`):
 
-1. the ends of all pieces are clustered within a join tolerance (a KD-tree), so
-   pieces that meet become one chain;
-2. ends left open that lie on a circle (within the attach tolerance) are linked in
-   pairs round that circle: a wrap left to the circle, or a gap next to a drawn wrap;
-3. remaining open ends close to each other are linked as gaps;
-4. each closed walk is cut into wraps (arcs on circles, or links round circles) and
-   spans (lines), and is a *loop* when at least two of its wraps lie on circles.
+1. **end points**: both ends of every piece, with their outward tangents, and the
+   circle each end lies on (within the attach tolerance); arcs lying on circles;
+2. **linking**: ends within the join tolerance meet (a KD-tree); ends left open on a
+   circle are linked in pairs round it (a wrap left to the circle, or a gap beside a
+   drawn wrap); other open ends close to each other are linked as gaps; ends still
+   open are tried once more within the slip tolerance (a drafter's slip: a span
+   rotated about one end, a polyline vertex moved);
+3. **walking**: each chain of linked pieces is walked end to end, closed or open;
+4. **classifying**: a closed walk is cut into wraps and spans and is a *loop* when at
+   least two of its wraps lie on circles and the chain is evidently meant as a belt
+   (on a belt layer, on a labelled or spec-named circle, or with most of its spans
+   tangent at both ends). Open and branching chains raise path errors only when they
+   are evidently meant as a belt too; every other chain that touches circles is
+   counted in one ``stray-paths`` note.
 
-Circles that are not wrapped stay candidates for labels and the spec. Work here is in
-drawing units; tolerances follow the design's geometry rules.
+Drafting faults of a loop's path (gaps, kinks, arcs off their circle) are recorded as
+:class:`Fault` records on its :class:`Chain` and worded by the drafting checks, which
+know the loop's span and pulley ids. Work here is in drawing units; tolerances follow
+the design's geometry rules.
 """
 
 from __future__ import annotations
 
 import fnmatch
+import itertools
 import math
 from collections import Counter, defaultdict
 from dataclasses import dataclass, field
+from enum import IntEnum
 
 import numpy as np
 import shapely
@@ -34,8 +46,16 @@ from physics.findings import Finding, Severity
 
 from .read import Drawing, Segments
 
-__all__ = ["Tolerances", "Wrap", "DrawnSpan", "Chain", "Recognition", "recognize_paths",
-           "layer_matches"]
+__all__ = ["Tolerances", "Wrap", "DrawnSpan", "Fault", "Chain", "Recognition", "PathEnds",
+           "recognize_paths", "layer_matches", "BELT_LAYER_WORDS"]
+
+#: Layer names that show a path is meant as a belt when the spec names no belt layers
+#: (common practice: belt, rope and cable layers are named so).
+BELT_LAYER_WORDS = ("*belt*", "*rope*", "*cable*")
+#: A chain is belt-like when at least this share of its spans (or pieces) is tangent at both ends.
+BELT_LIKE_SHARE = 0.5
+#: Beyond this many ends arriving on one circle, pairing is greedy instead of exhaustive.
+_EXHAUSTIVE_PAIRS = 4
 
 
 @dataclass(frozen=True, slots=True)
@@ -44,12 +64,14 @@ class Tolerances:
 
     ``join``: how far two drawn ends may be apart and still meet, also the
     concentricity of an arc with its circle; ``attach``: how far a drawn end may miss
-    its circle radially and still belong to that wrap; ``tangent_deg`` and
-    ``tangent_offset``: how far a span may be off the exact tangent.
+    its circle radially and still belong to that wrap; ``slip``: how far an end left
+    open may miss its wrap and still close the loop across that pulley (with an error);
+    ``tangent_deg`` and ``tangent_offset``: how far a span may be off the exact tangent.
     """
 
     join: float = 1e-3
     attach: float = 0.1
+    slip: float = 0.25
     tangent_deg: float = 0.05
     tangent_offset: float = 1e-3
     #: relative to the size of a coordinate: the precision floor of float64 drawings
@@ -75,6 +97,7 @@ class Wrap:
     segments: list[int] = field(default_factory=list)
     arrive: tuple[float, float] | None = None   # drawn end of the arriving span at this circle
     leave: tuple[float, float] | None = None    # drawn start of the leaving span
+    slipped: bool = False         # its drawn arc is off the circle by a drafter's slip
 
 
 @dataclass(slots=True)
@@ -82,6 +105,25 @@ class DrawnSpan:
     """The drawn pieces between two consecutive wraps (lines, in travel order)."""
 
     pieces: list[tuple[int, bool]] = field(default_factory=list)   # (segment, forward)
+
+
+@dataclass(frozen=True, slots=True)
+class Fault:
+    """A drafting fault in a loop's drawn path, in drawing terms, before it is worded.
+
+    ``kind`` is ``gap`` (the path is open between ``a`` and ``b``), ``kink`` (a span
+    bends at ``a``), ``off-arc`` (an arc of the path on no circle, from ``a`` to ``b``)
+    or ``slipped-arc`` (an arc drawn as the wrap on ``circle`` but off it by up to the
+    slip tolerance). ``segments`` are the pieces either side; ``circle`` is the circle
+    the fault lies at, or -1.
+    """
+
+    kind: str
+    a: tuple[float, float]
+    b: tuple[float, float]
+    segments: tuple[int, ...]
+    circle: int = -1
+    size: float = 0.0
 
 
 @dataclass(slots=True)
@@ -94,25 +136,25 @@ class Chain:
     layer: str
     order: int                    # smallest segment index: drawing order of the loop
     findings: list[Finding] = field(default_factory=list)
+    faults: list[Fault] = field(default_factory=list)
 
     def reversed(self) -> "Chain":
         """The same loop travelled the other way."""
         n = len(self.wraps)
-        wraps = []
-        for w in reversed(self.wraps):
-            wraps.append(Wrap(w.circle, -w.turn, w.drawn, w.radius, w.segments, w.leave, w.arrive))
+        wraps = [Wrap(w.circle, -w.turn, w.drawn, w.radius, w.segments, w.leave, w.arrive, w.slipped)
+                 for w in reversed(self.wraps)]
         spans = []
         for k in range(n):
             # new span k runs from new wrap k (old n-1-k) to new wrap k+1 (old n-2-k):
             # that is old span n-2-k reversed
             old = self.spans[(n - 2 - k) % n]
             spans.append(DrawnSpan([(s, not f) for s, f in reversed(old.pieces)]))
-        return Chain(wraps, spans, self.segments, self.layer, self.order, self.findings)
+        return Chain(wraps, spans, self.segments, self.layer, self.order, self.findings, self.faults)
 
     def rotated(self, k: int) -> "Chain":
         """The same loop starting at wrap ``k``."""
         return Chain(self.wraps[k:] + self.wraps[:k], self.spans[k:] + self.spans[:k],
-                     self.segments, self.layer, self.order, self.findings)
+                     self.segments, self.layer, self.order, self.findings, self.faults)
 
 
 @dataclass(slots=True)
@@ -122,6 +164,94 @@ class Recognition:
     chains: list[Chain]
     circle_alias: NDArray[np.int64]      # duplicate circles point at the one kept
     findings: list[Finding]
+
+
+class Link(IntEnum):
+    """How an end is linked to its partner end."""
+
+    NONE = 0
+    JOIN = 1        # the two ends meet
+    WRAP = 2        # the belt goes round a circle from one to the other
+    GAP = 3         # open space between them
+
+
+@dataclass(slots=True)
+class PathEnds:
+    """Both ends of every drawn piece: end ``e`` belongs to piece ``e // 2``, its start when
+    ``e`` is even. Arrays of shape ``(2 n, ...)``."""
+
+    point: NDArray[np.float64]           # (2n, 2)
+    tangent: NDArray[np.float64]         # (2n, 2) outward unit tangent
+    circle: NDArray[np.int64]            # circle the end lies on (attach tolerance), -1
+    cluster: NDArray[np.int64]           # ends within the join tolerance share a cluster
+    partner: NDArray[np.int64]           # the end linked to, -1
+    link: NDArray[np.int8]               # a :class:`Link`
+    link_circle: NDArray[np.int64]       # the circle of a WRAP link, -1
+
+    def connect(self, e: int, f: int, kind: Link, circle: int = -1) -> None:
+        self.partner[e], self.partner[f] = f, e
+        self.link[e] = self.link[f] = kind
+        self.link_circle[e] = self.link_circle[f] = circle
+
+    def xy(self, e: int) -> tuple[float, float]:
+        return (float(self.point[e, 0]), float(self.point[e, 1]))
+
+
+@dataclass(frozen=True, slots=True)
+class _Scene:
+    """The pieces, the circles kept after removing duplicates, and what counts as evidence."""
+
+    S: Segments
+    cx: NDArray[np.float64]
+    cy: NDArray[np.float64]
+    cr: NDArray[np.float64]
+    tol: Tolerances
+    height: float                        # belt height in drawing units, 0 when unknown
+    belt_height: float | None
+    named: NDArray[np.bool_]             # per kept circle: labelled or named by the spec
+    belt_layers: tuple[str, ...]         # patterns that show a path is meant as a belt
+    restrict: bool                       # the spec's belt layers exist: loops only on them
+
+
+@dataclass(slots=True)
+class _Arcs:
+    """Per piece: the circle an arc lies on (-1), and how."""
+
+    circle: NDArray[np.int64]
+    offset: NDArray[np.bool_]            # at a belt height outside its circle (back idler)
+    slipped: NDArray[np.bool_]           # off its circle by a drafter's slip
+
+
+@dataclass(slots=True)
+class _Walk:
+    pieces: list[tuple[int, bool]]       # (segment, forward) in walking order
+    links: list[tuple[int, int]]         # (end left, end reached) after each piece
+    closed: bool
+    open_end: int = -1
+
+
+class _Element:
+    """One element of a closed walk: a piece, or a link between two pieces."""
+
+    __slots__ = ("kind", "circle", "turn", "drawn", "segment", "a", "b")
+
+    def __init__(self, kind: str, circle: int, turn: int, drawn: bool, segment: int,
+                 a: tuple[float, float], b: tuple[float, float]) -> None:
+        self.kind, self.circle, self.turn, self.drawn = kind, circle, turn, drawn
+        self.segment, self.a, self.b = segment, a, b
+
+
+@dataclass(slots=True)
+class _Strays:
+    """Chains touching circles that are not evidently belts, counted for one note."""
+
+    count: int = 0
+    at: tuple[float, float] | None = None
+
+    def add(self, at: tuple[float, float]) -> None:
+        self.count += 1
+        if self.at is None:
+            self.at = at
 
 
 def layer_matches(layer: str, patterns: tuple[str, ...]) -> bool:
@@ -134,13 +264,86 @@ def _fmt(p: tuple[float, float] | NDArray[np.float64]) -> str:
     return f"({p[0]:.6g}, {p[1]:.6g})"
 
 
-def _dedup_circles(d: Drawing, tol: Tolerances) -> tuple[NDArray[np.int64], list[Finding]]:
+# --------------------------------------------------------------------------- the whole
+
+
+def recognize_paths(d: Drawing, *, tol: Tolerances = Tolerances(),
+                    belt_layers: tuple[str, ...] = (), belt_height: float | None = None,
+                    named: frozenset[int] | set[int] = frozenset()) -> Recognition:
+    """Find the belt loops drawn in ``d``.
+
+    Parameters
+    ----------
+    d
+        The drawing's primitives.
+    tol
+        Tolerances (fractions of radius).
+    belt_layers
+        Glob patterns; when the drawing has matching layers, only chains on them are
+        loops, and chains elsewhere that would be loops are reported as notes. Without
+        them, layers named like :data:`BELT_LAYER_WORDS` are evidence of a belt.
+    belt_height
+        Belt height in drawing units, when known: a back idler may be drawn at its
+        outside diameter, the path's arc that far outside its circle.
+    named
+        Circles (the drawing's numbering) that a label or the spec names as pulleys:
+        evidence that a path touching them is meant as a belt.
+    """
+    alias, duplicates = _dedup_circles(d, tol)
+    keep = np.flatnonzero(alias == np.arange(len(alias)))
+    S = d.segments
+    if len(S) == 0 or keep.size == 0:
+        return Recognition([], alias, _duplicate_note(d, duplicates, []))
+    scene = _scene(d, keep, tol, belt_layers, belt_height, named)
+    ends = _end_points(scene)
+    arcs = _arcs_on_circles(scene, ends)
+    _cluster_ends(ends, scene)
+    comp = _components(ends, len(S))
+    relevant = _relevant_components(ends, arcs, comp)
+    segs = np.flatnonzero(relevant[comp])
+    dropped, seg_dups = _duplicate_pieces(np.arange(len(S)), ends, S)
+    branches = _link_all(segs, dropped, ends, arcs, comp, scene)
+    chains, strays, findings = _walk_all(segs, dropped, ends, arcs, comp, scene, d, keep)
+    findings.extend(_branch_findings(branches, ends, arcs, comp, scene, strays))
+    if strays.count:
+        findings.append(_stray_note(strays))
+    findings[:0] = _duplicate_note(d, duplicates, seg_dups)
+    for ch in chains:
+        _to_drawing_numbering(ch, keep)
+    chains.sort(key=lambda ch: (int(S.order[ch.order]) if len(S.order) else 0, ch.order))
+    return Recognition(chains, alias, findings)
+
+
+def _scene(d: Drawing, keep: NDArray[np.int64], tol: Tolerances, belt_layers: tuple[str, ...],
+           belt_height: float | None, named: frozenset[int] | set[int]) -> _Scene:
+    c = d.circles
+    named_kept = np.zeros(keep.size, dtype=bool)
+    if named:
+        named_kept = np.isin(keep, np.fromiter(named, dtype=np.int64))
+    restrict = bool(belt_layers) and any(layer_matches(layer, belt_layers) for layer in set(d.segments.layer))
+    return _Scene(d.segments, c.x[keep], c.y[keep], c.r[keep], tol, belt_height or 0.0, belt_height,
+                  named_kept, belt_layers or BELT_LAYER_WORDS, restrict)
+
+
+def _to_drawing_numbering(ch: Chain, keep: NDArray[np.int64]) -> None:
+    """Map a chain's circle indices from the kept circles back to the drawing's numbering."""
+    for w in ch.wraps:
+        w.circle = int(keep[w.circle])
+    ch.faults = [Fault(f.kind, f.a, f.b, f.segments, int(keep[f.circle]) if f.circle >= 0 else -1, f.size)
+                 for f in ch.faults]
+
+
+# --------------------------------------------------------------------------- duplicates
+
+
+def _dedup_circles(d: Drawing, tol: Tolerances) -> tuple[NDArray[np.int64], list[tuple[int, int]]]:
+    """Each circle's alias (the circle it repeats, or itself) and the (copy, kept) pairs."""
     c = d.circles
     n = len(c)
     alias = np.arange(n)
-    findings: list[Finding] = []
+    repeats: list[tuple[int, int]] = []
     if n < 2:
-        return alias, findings
+        return alias, repeats
     pts = np.column_stack([c.x, c.y])
     tree = cKDTree(pts)
     # each circle's own tolerance: a large circle must not widen the search for small ones
@@ -152,46 +355,59 @@ def _dedup_circles(d: Drawing, tol: Tolerances) -> tuple[NDArray[np.int64], list
         if (math.hypot(c.x[i] - c.x[j], c.y[i] - c.y[j]) <= lim and abs(c.r[i] - c.r[j]) <= lim
                 and alias[j] == j):
             alias[j] = alias[i]
-            findings.append(Finding(Severity.NOTE, "duplicate-entity",
-                                    f"CIRCLE #{c.handle[j]} on {c.layer[j]} at {_fmt((c.x[j], c.y[j]))} "
-                                    f"repeats CIRCLE #{c.handle[i]}; the copy is ignored",
-                                    at=(float(c.x[j]), float(c.y[j]))))
-    return alias, findings
+            repeats.append((j, i))
+    return alias, repeats
 
 
-def recognize_paths(d: Drawing, *, tol: Tolerances = Tolerances(),
-                    belt_layers: tuple[str, ...] = (), belt_height: float | None = None
-                    ) -> Recognition:
-    """Find the belt loops drawn in ``d``.
+def _duplicate_pieces(segs: NDArray[np.int64], ends: PathEnds, S: Segments
+                      ) -> tuple[NDArray[np.bool_], list[tuple[int, int]]]:
+    """Pieces that repeat another (same clusters, same sweep): dropped, with (copy, kept) pairs."""
+    seen: dict[tuple[int, int, float], int] = {}
+    dropped = np.zeros(len(S), dtype=bool)
+    repeats: list[tuple[int, int]] = []
+    for s in segs.tolist():
+        ca, cb = int(ends.cluster[2 * s]), int(ends.cluster[2 * s + 1])
+        sw = round(float(S.sweep[s]), 6)
+        key = (ca, cb, sw) if ca <= cb else (cb, ca, -sw)
+        if key in seen:
+            dropped[s] = True
+            repeats.append((s, seen[key]))
+        else:
+            seen[key] = s
+    return dropped, repeats
 
-    Parameters
-    ----------
-    d
-        The drawing's primitives.
-    tol
-        Tolerances (fractions of radius).
-    belt_layers
-        Glob patterns; when the drawing has matching layers, only chains on them are
-        loops, and chains elsewhere that would be loops are reported as notes.
-    belt_height
-        Belt height in drawing units, when known: a back idler may be drawn at its
-        outside diameter, the path's arc that far outside its circle.
-    """
-    findings: list[Finding] = []
-    alias, dup_findings = _dedup_circles(d, tol)
-    findings.extend(dup_findings)
-    keep = np.flatnonzero(alias == np.arange(len(alias)))
-    S = d.segments
+
+def _duplicate_note(d: Drawing, circles: list[tuple[int, int]], pieces: list[tuple[int, int]]) -> list[Finding]:
+    """One ``duplicate-entity`` note for all repeated entities, located at the first."""
+    pieces = list({d.segments.handle[s]: (s, o) for s, o in pieces}.values())    # one per entity
+    n = len(circles) + len(pieces)
+    if n == 0:
+        return []
+    c, S = d.circles, d.segments
+    if circles:
+        j, i = circles[0]
+        first = f"CIRCLE #{c.handle[j]} on {c.layer[j]} at {_fmt((c.x[j], c.y[j]))} repeats CIRCLE #{c.handle[i]}"
+        at = (float(c.x[j]), float(c.y[j]))
+    else:
+        s, o = pieces[0]
+        first = f"{S.kind[s]} #{S.handle[s]} on {S.layer[s]} repeats {S.kind[o]} #{S.handle[o]}"
+        at = (float(S.x0[s]), float(S.y0[s]))
+    what = "entity repeats another and is" if n == 1 else "entities repeat others and are"
+    return [Finding(Severity.NOTE, "duplicate-entity",
+                    f"{n} {what} ignored ({first}{', and more' if n > 1 else ''})", at=at,
+                    data={"count": n, "circles": len(circles), "pieces": len(pieces)})]
+
+
+# --------------------------------------------------------------------------- end points
+
+
+def _end_points(scene: _Scene) -> PathEnds:
+    """Both ends of every piece, their outward tangents, and the circle each lies on."""
+    S = scene.S
     n = len(S)
-    if n == 0 or keep.size == 0:
-        return Recognition([], alias, findings)
-    cx, cy, cr = d.circles.x[keep], d.circles.y[keep], d.circles.r[keep]
-
     P = np.empty((2 * n, 2))
     P[0::2, 0], P[0::2, 1] = S.x0, S.y0
     P[1::2, 0], P[1::2, 1] = S.x1, S.y1
-    is_arc = S.sweep != 0.0
-    # outward unit tangents at each end
     T = np.empty_like(P)
     chord = np.column_stack([S.x1 - S.x0, S.y1 - S.y0])
     clen = np.hypot(chord[:, 0], chord[:, 1])
@@ -199,255 +415,222 @@ def recognize_paths(d: Drawing, *, tol: Tolerances = Tolerances(),
     line_dir = chord / clen[:, None]
     T[0::2] = -line_dir
     T[1::2] = line_dir
-    if is_arc.any():
-        a = np.flatnonzero(is_arc)
-        sg = np.sign(S.sweep[a])
+    a = np.flatnonzero(S.sweep != 0.0)
+    if a.size:
+        sg = np.sign(S.sweep[a])[:, None]
+        rr = S.r[a][:, None]
         r0 = np.column_stack([S.x0[a] - S.cx[a], S.y0[a] - S.cy[a]])
         r1 = np.column_stack([S.x1[a] - S.cx[a], S.y1[a] - S.cy[a]])
-        rr = S.r[a][:, None]
-        T[2 * a] = -sg[:, None] * np.column_stack([-r0[:, 1], r0[:, 0]]) / rr
-        T[2 * a + 1] = sg[:, None] * np.column_stack([-r1[:, 1], r1[:, 0]]) / rr
+        T[2 * a] = -sg * np.column_stack([-r0[:, 1], r0[:, 0]]) / rr
+        T[2 * a + 1] = sg * np.column_stack([-r1[:, 1], r1[:, 0]]) / rr
+    m = 2 * n
+    ends = PathEnds(P, T, np.full(m, -1, np.int64), np.arange(m), np.full(m, -1, np.int64),
+                    np.zeros(m, np.int8), np.full(m, -1, np.int64))
+    ends.circle = _attach(P, scene, scene.tol.attach)
+    return ends
 
-    # --- which circle (if any) each end attaches to: |dist - r| <= attach * r, nearest
-    # (a back idler may be drawn at its outside diameter: spans then end `belt_height`
-    # outside its circle)
-    h = belt_height or 0.0
-    reach = cr * (1 + tol.attach) + h
+
+def _attach(P: NDArray[np.float64], scene: _Scene, frac: float) -> NDArray[np.int64]:
+    """For each point, the nearest circle it lies on within ``frac`` of the radius, or -1.
+
+    A back idler may be drawn at its outside diameter: a point may also lie the belt's
+    height outside its circle.
+    """
+    cx, cy, cr, h = scene.cx, scene.cy, scene.cr, scene.height
+    out = np.full(len(P), -1, dtype=np.int64)
+    if not len(P):
+        return out
+    reach = cr * (1 + frac) + h
     tree = shapely.STRtree(shapely.box(cx - reach, cy - reach, cx + reach, cy + reach))
     qi, qc = tree.query(shapely.points(P))
-    attach_c = np.full(2 * n, -1, dtype=np.int64)
-    if qi.size:
-        dist = np.hypot(P[qi, 0] - cx[qc], P[qi, 1] - cy[qc])
-        miss = np.minimum(np.abs(dist - cr[qc]), np.abs(dist - cr[qc] - h))
-        ok = miss <= tol.attach * cr[qc]
-        qi, qc, miss = qi[ok], qc[ok], miss[ok]
-        order = np.lexsort((cr[qc], miss, qi))        # per end: smallest miss first
-        qi, qc = qi[order], qc[order]
-        first = np.ones(qi.size, dtype=bool)
-        first[1:] = qi[1:] != qi[:-1]
-        attach_c[qi[first]] = qc[first]
+    if not qi.size:
+        return out
+    dist = np.hypot(P[qi, 0] - cx[qc], P[qi, 1] - cy[qc])
+    miss = np.minimum(np.abs(dist - cr[qc]), np.abs(dist - cr[qc] - h))
+    ok = miss <= frac * cr[qc]
+    qi, qc, miss = qi[ok], qc[ok], miss[ok]
+    order = np.lexsort((cr[qc], miss, qi))        # per point: smallest miss first
+    qi, qc = qi[order], qc[order]
+    first = np.ones(qi.size, dtype=bool)
+    first[1:] = qi[1:] != qi[:-1]
+    out[qi[first]] = qc[first]
+    return out
 
-    # --- arcs on circles: concentric within join tolerance, radius equal (or a back offset)
-    arc_circle = np.full(n, -1, dtype=np.int64)
-    arc_offset = np.zeros(n, dtype=bool)
-    if is_arc.any():
-        ctree = cKDTree(np.column_stack([cx, cy]))
-        a = np.flatnonzero(is_arc)
-        lim = tol.join_abs(S.r[a], np.maximum(np.abs(S.cx[a]), np.abs(S.cy[a])))
-        near = ctree.query_ball_point(np.column_stack([S.cx[a], S.cy[a]]), r=lim)
-        for k, cands in zip(a, near):
-            if not cands:
-                continue
-            best, best_dr = -1, math.inf
-            for c in cands:
-                dr = abs(S.r[k] - cr[c])
-                if dr < best_dr:
-                    best, best_dr = c, dr
-            rl = float(tol.join_abs(S.r[k], max(abs(S.cx[k]), abs(S.cy[k]))))
-            if best_dr <= rl:
-                arc_circle[k] = best
-            elif belt_height is not None and 0 < S.r[k] - cr[best] <= belt_height + rl:
-                arc_circle[k] = best
-                arc_offset[k] = True
 
-    # --- cluster ends within join tolerance
-    r_ref = np.where(attach_c >= 0, cr[np.maximum(attach_c, 0)], np.median(cr))
-    etol = tol.join_abs(r_ref, np.abs(P).max(axis=1))
-    ptree = cKDTree(P)
-    pairs = ptree.query_pairs(r=float(etol.max()), output_type="ndarray")
+def _arcs_on_circles(scene: _Scene, ends: PathEnds) -> _Arcs:
+    """Arcs on circles: concentric within the join tolerance with an equal radius (or a back
+    offset); then arcs off every circle that a slip explains."""
+    S = scene.S
+    n = len(S)
+    arcs = _Arcs(np.full(n, -1, np.int64), np.zeros(n, bool), np.zeros(n, bool))
+    a = np.flatnonzero(S.sweep != 0.0)
+    if not a.size:
+        return arcs
+    ctree = cKDTree(np.column_stack([scene.cx, scene.cy]))
+    lim = scene.tol.join_abs(S.r[a], np.maximum(np.abs(S.cx[a]), np.abs(S.cy[a])))
+    near = ctree.query_ball_point(np.column_stack([S.cx[a], S.cy[a]]), r=lim)
+    for k, cands in zip(a.tolist(), near):
+        if cands:
+            _arc_on(k, cands, scene, arcs)
+    off = a[arcs.circle[a] < 0]
+    if off.size:
+        reach = scene.tol.slip * float(scene.cr.max())
+        cands = ctree.query_ball_point(np.column_stack([S.cx[off], S.cy[off]]), r=reach)
+        for k, cs in zip(off.tolist(), cands):
+            c, slipped = _slipped_circle(k, cs, scene, ends)
+            if c >= 0:
+                arcs.circle[k], arcs.slipped[k] = c, slipped
+    return arcs
+
+
+def _arc_on(k: int, cands: list[int], scene: _Scene, arcs: _Arcs) -> None:
+    """Put arc ``k`` on the concentric candidate circle of nearest radius, if close enough."""
+    S, cr = scene.S, scene.cr
+    best = min(cands, key=lambda c: abs(S.r[k] - cr[c]))
+    best_dr = abs(S.r[k] - cr[best])
+    rl = float(scene.tol.join_abs(S.r[k], max(abs(S.cx[k]), abs(S.cy[k]))))
+    if best_dr <= rl:
+        arcs.circle[k] = best
+    elif scene.belt_height is not None and 0 < S.r[k] - cr[best] <= scene.belt_height + rl:
+        arcs.circle[k] = best
+        arcs.offset[k] = True
+
+
+def _slipped_circle(k: int, cands: list[int], scene: _Scene, ends: PathEnds) -> tuple[int, bool]:
+    """The circle arc ``k`` is the wrap on although its centre is off it, and whether it slipped.
+
+    An arc whose ends and middle all lie on a circle within the join tolerance is on it (a
+    short arc's centre is ill-conditioned); one with an end on the circle and the rest within
+    the slip tolerance, its radius within it too, is a slip (a polyline vertex dragged).
+    ``(-1, False)`` when there is none.
+    """
+    S, tol = scene.S, scene.tol
+    a0 = math.atan2(S.y0[k] - S.cy[k], S.x0[k] - S.cx[k])
+    mid = (S.cx[k] + S.r[k] * math.cos(a0 + S.sweep[k] / 2), S.cy[k] + S.r[k] * math.sin(a0 + S.sweep[k] / 2))
+    for c in sorted(cands, key=lambda c: abs(S.r[k] - scene.cr[c])):
+        r = float(scene.cr[c])
+        centre = (scene.cx[c], scene.cy[c])
+        join = float(tol.join_abs(r, max(abs(centre[0]), abs(centre[1]))))
+        if abs(S.r[k] - r) > tol.slip * r:
+            continue
+        ends_miss = [abs(math.hypot(*(ends.point[e] - centre)) - r) for e in (2 * k, 2 * k + 1)]
+        mid_miss = abs(math.hypot(mid[0] - centre[0], mid[1] - centre[1]) - r)
+        if max(ends_miss + [mid_miss]) <= join:
+            return int(c), False
+        if min(ends_miss) <= join and max(ends_miss + [mid_miss]) <= tol.slip * r:
+            return int(c), True
+    return -1, False
+
+
+# --------------------------------------------------------------------------- linking
+
+
+def _cluster_ends(ends: PathEnds, scene: _Scene) -> None:
+    """Ends within the join tolerance of each other share a cluster (never both ends of one piece)."""
+    P, cr = ends.point, scene.cr
+    m = len(P)
+    r_ref = np.where(ends.circle >= 0, cr[np.maximum(ends.circle, 0)], np.median(cr))
+    etol = scene.tol.join_abs(r_ref, np.abs(P).max(axis=1))
+    pairs = cKDTree(P).query_pairs(r=float(etol.max()), output_type="ndarray")
     if pairs.size:
         dd = np.hypot(*(P[pairs[:, 0]] - P[pairs[:, 1]]).T)
         pairs = pairs[dd <= np.maximum(etol[pairs[:, 0]], etol[pairs[:, 1]])]
-    # the two ends of one segment never cluster with each other
-    pairs = pairs[pairs[:, 0] // 2 != pairs[:, 1] // 2] if pairs.size else pairs
-    m = 2 * n
+        pairs = pairs[pairs[:, 0] // 2 != pairs[:, 1] // 2]
     if pairs.size:
         g = coo_matrix((np.ones(len(pairs)), (pairs[:, 0], pairs[:, 1])), shape=(m, m))
-        _, cluster = connected_components(g, directed=False)
-    else:
-        cluster = np.arange(m)
-    # components of pieces: clusters joined by segments
+        _, ends.cluster = connected_components(g, directed=False)
+
+
+def _components(ends: PathEnds, n: int) -> NDArray[np.int64]:
+    """Component per piece: pieces whose ends share clusters, transitively."""
+    cluster = ends.cluster
     ncl = int(cluster.max()) + 1
-    g2 = coo_matrix((np.ones(n), (cluster[0::2], cluster[1::2])), shape=(ncl, ncl))
-    _, comp_of_cluster = connected_components(g2, directed=False)
-    comp = comp_of_cluster[cluster[0::2]]          # component per segment
+    g = coo_matrix((np.ones(n), (cluster[0::2], cluster[1::2])), shape=(ncl, ncl))
+    _, comp_of_cluster = connected_components(g, directed=False)
+    return comp_of_cluster[cluster[0::2]]
 
-    # relevant components: touching a circle
-    rel_seg = (attach_c[0::2] >= 0) | (attach_c[1::2] >= 0) | (arc_circle >= 0)
+
+def _relevant_components(ends: PathEnds, arcs: _Arcs, comp: NDArray[np.int64]) -> NDArray[np.bool_]:
+    """Components touching a circle (an end on one, or an arc on one)."""
+    touching = (ends.circle[0::2] >= 0) | (ends.circle[1::2] >= 0) | (arcs.circle >= 0)
     relevant = np.zeros(int(comp.max()) + 1, dtype=bool)
-    relevant[comp[rel_seg]] = True
-    seg_ok = relevant[comp]
-    if not seg_ok.any():
-        return Recognition([], alias, findings)
-    segs = np.flatnonzero(seg_ok)
-    ends = np.concatenate([2 * segs, 2 * segs + 1])
+    relevant[comp[touching]] = True
+    return relevant
 
-    # duplicates: two pieces between the same clusters with the same sweep
-    seen: dict[tuple[int, int, float], int] = {}
-    dropped = np.zeros(n, dtype=bool)
-    for s in segs:
-        ca, cb = int(cluster[2 * s]), int(cluster[2 * s + 1])
-        sw = round(float(S.sweep[s]), 6)
-        key = (ca, cb, sw) if ca <= cb else (cb, ca, -sw)
-        if key in seen:
-            dropped[s] = True
-            o = seen[key]
-            findings.append(Finding(Severity.NOTE, "duplicate-entity",
-                                    f"{S.kind[s]} #{S.handle[s]} on {S.layer[s]} repeats "
-                                    f"{S.kind[o]} #{S.handle[o]}; the copy is ignored",
-                                    at=(float(S.x0[s]), float(S.y0[s]))))
-        else:
-            seen[key] = int(s)
-    ends = ends[~dropped[ends // 2]]
+
+def _link_all(segs: NDArray[np.int64], dropped: NDArray[np.bool_], ends: PathEnds, arcs: _Arcs,
+              comp: NDArray[np.int64], scene: _Scene) -> list[int]:
+    """Link the ends of the pieces in ``segs``; return one end of each branching cluster."""
+    live = segs[~dropped[segs]]
     members: dict[int, list[int]] = defaultdict(list)
-    for e in ends.tolist():
-        members[int(cluster[e])].append(e)
-
-    partner = np.full(m, -1, dtype=np.int64)
-    link_kind: dict[int, tuple[str, int]] = {}
-    branch_at: list[int] = []
+    for e in np.concatenate([2 * live, 2 * live + 1]).tolist():
+        members[int(ends.cluster[e])].append(e)
+    branches: list[int] = []
+    open_ends: list[int] = []
     for es in members.values():
         if len(es) == 2:
-            partner[es[0]], partner[es[1]] = es[1], es[0]
-            link_kind[es[0]] = link_kind[es[1]] = ("join", -1)
+            ends.connect(es[0], es[1], Link.JOIN)
         elif len(es) > 2:
-            branch_at.append(es[0])
-    open_ends = [e for es in members.values() if len(es) == 1 for e in es]
+            branches.append(es[0])
+        else:
+            open_ends.append(es[0])
+    _link_round_circles(open_ends, ends.circle, ends, arcs, scene)
+    _link_gaps([e for e in open_ends if ends.partner[e] < 0], live, ends, comp, scene)
+    still = [e for e in open_ends if ends.partner[e] < 0]
+    if still:
+        _link_round_circles(still, _attach(ends.point[still], scene, scene.tol.slip), ends, arcs, scene,
+                            circle_of=dict(zip(still, range(len(still)))))
+    return branches
 
-    # --- wraps left to circles, and gaps next to drawn wraps: pair open ends round circles
+
+def _link_round_circles(open_ends: list[int], circle: NDArray[np.int64], ends: PathEnds, arcs: _Arcs,
+                        scene: _Scene, circle_of: dict[int, int] | None = None) -> None:
+    """Pair open ends lying on one circle: the belt goes round it from one to the other.
+
+    ``circle`` holds each end's circle, indexed by the end itself or, with ``circle_of``,
+    by ``circle_of[end]``. Radial pieces (centre marks, leaders) are left out.
+    """
     by_circle: dict[int, list[int]] = defaultdict(list)
     for e in open_ends:
-        c = int(attach_c[e])
-        if c >= 0:
-            rv = P[e] - (cx[c], cy[c])
-            rn = math.hypot(rv[0], rv[1])
-            if rn == 0:
-                continue
-            sin_t = (rv[0] * T[e, 1] - rv[1] * T[e, 0]) / rn
-            if abs(sin_t) >= 0.5:          # not a radial line (centre marks, leaders)
-                by_circle[c].append(e)
+        c = int(circle[e if circle_of is None else circle_of[e]])
+        if c < 0:
+            continue
+        rv = ends.point[e] - (scene.cx[c], scene.cy[c])
+        rn = math.hypot(rv[0], rv[1])
+        if rn == 0:
+            continue
+        sin_t = (rv[0] * ends.tangent[e, 1] - rv[1] * ends.tangent[e, 0]) / rn
+        if abs(sin_t) >= 0.5:
+            by_circle[c].append(e)
     for c, es in by_circle.items():
-        for e, f in _pair_round_circle(c, es, P, T, cx, cy, arc_circle, S.layer):
-            partner[e], partner[f] = f, e
-            link_kind[e] = link_kind[f] = ("wrap", c)
+        for e, f in _pair_round_circle(c, es, ends, scene, arcs.circle):
+            ends.connect(e, f, Link.WRAP, c)
 
-    # --- remaining open ends close to each other: gaps
-    rest = [e for e in open_ends if partner[e] < 0]
-    if len(rest) > 1:
-        comp_r: dict[int, float] = {}
-        for e in ends.tolist():
-            c = int(attach_c[e])
-            if c >= 0:
-                k = int(comp[e // 2])
-                comp_r[k] = min(comp_r.get(k, math.inf), float(cr[c]))
-        rp = P[rest]
-        rtree = cKDTree(rp)
-        dist, idx = rtree.query(rp, k=2)
-        for a_i, e in enumerate(rest):
-            b_i = int(idx[a_i, 1])
-            f = rest[b_i]
-            if partner[e] >= 0 or partner[f] >= 0 or int(idx[b_i, 1]) != a_i or f // 2 == e // 2:
-                continue
-            rlim = min(comp_r.get(int(comp[e // 2]), math.inf), comp_r.get(int(comp[f // 2]), math.inf))
-            if math.isfinite(rlim) and dist[a_i, 1] <= tol.attach * rlim:
-                partner[e], partner[f] = f, e
-                link_kind[e] = link_kind[f] = ("gap", -1)
 
-    # --- walk the closed chains
-    visited = np.zeros(n, dtype=bool)
-    visited[dropped] = True
-    chains: list[Chain] = []
-    off_layer: list[Chain] = []
-    has_belt_layers = bool(belt_layers) and any(layer_matches(l, belt_layers) for l in set(S.layer))
-    for s0 in segs.tolist():
-        if visited[s0]:
+def _link_gaps(rest: list[int], live: NDArray[np.int64], ends: PathEnds, comp: NDArray[np.int64],
+               scene: _Scene) -> None:
+    """Link mutually nearest open ends within the attach tolerance of their chains' circles."""
+    if len(rest) < 2:
+        return
+    comp_r: dict[int, float] = {}
+    for e in np.concatenate([2 * live, 2 * live + 1]).tolist():
+        c = int(ends.circle[e])
+        if c >= 0:
+            k = int(comp[e // 2])
+            comp_r[k] = min(comp_r.get(k, math.inf), float(scene.cr[c]))
+    dist, idx = cKDTree(ends.point[rest]).query(ends.point[rest], k=2)
+    for a_i, e in enumerate(rest):
+        b_i = int(idx[a_i, 1])
+        f = rest[b_i]
+        if ends.partner[e] >= 0 or ends.partner[f] >= 0 or int(idx[b_i, 1]) != a_i or f // 2 == e // 2:
             continue
-        walk: list[tuple[int, bool]] = []
-        links: list[tuple[str, int, int, int]] = []   # kind, circle, end_from, end_to
-        s, fwd = s0, True
-        closed = False
-        open_end = -1
-        guard = 0
-        while True:
-            guard += 1
-            if guard > 4 * n + 4:
-                break
-            visited[s] = True
-            walk.append((s, fwd))
-            out_end = 2 * s + (1 if fwd else 0)
-            p = int(partner[out_end])
-            if p < 0:
-                open_end = out_end
-                break
-            kind, c = link_kind[out_end]
-            links.append((kind, c, out_end, p))
-            s, fwd = p // 2, (p % 2 == 0)
-            if s == s0:
-                closed = fwd
-                break
-        comp_segs = [w[0] for w in walk]
-        touched = {int(attach_c[2 * k]) for k in comp_segs} | {int(attach_c[2 * k + 1]) for k in comp_segs}
-        touched |= {int(arc_circle[k]) for k in comp_segs}
-        touched.discard(-1)
-        if not closed:
-            if open_end >= 0 and len(touched) >= 2:
-                # walk the other way to mark the rest of the open path
-                _mark_open(s0, partner, visited)
-                findings.append(Finding(
-                    Severity.ERROR, "path-open",
-                    f"{S.kind[open_end // 2]} #{S.handle[open_end // 2]} on {S.layer[open_end // 2]}: "
-                    f"the belt path touching {len(touched)} pulleys is not closed; its end at "
-                    f"{_fmt(P[open_end])} meets nothing", at=(float(P[open_end, 0]), float(P[open_end, 1]))))
-            continue
-        chain = _assemble(walk, links, S, P, T, cx, cy, cr, arc_circle, arc_offset, tol)
-        if chain is None:
-            continue
-        offsets = [w for w in chain.wraps if w.radius != cr[w.circle]]
-        exact = len(chain.wraps) - len(offsets)
-        if exact < 2:
-            continue                                  # an outline, a slot, a symbol: not a belt
-        for w in offsets:
-            chain.findings.append(Finding(
-                Severity.NOTE, "back-offset",
-                f"the path round CIRCLE #{d.circles.handle[keep[w.circle]]} at "
-                f"{_fmt((cx[w.circle], cy[w.circle]))} runs {w.radius - cr[w.circle]:.6g} outside it: "
-                f"taken as a back idler drawn at its outside diameter, pitch radius {w.radius:.6g}",
-                at=(float(cx[w.circle]), float(cy[w.circle]))))
-        layers = Counter(S.layer[k] for k in chain.segments)
-        chain.layer = layers.most_common(1)[0][0]
-        if has_belt_layers and not all(layer_matches(S.layer[k], belt_layers) for k in chain.segments):
-            off_layer.append(chain)
-            continue
-        chains.append(chain)
-    for e in branch_at:
-        s = e // 2
-        if relevant[comp[s]]:
-            findings.append(Finding(
-                Severity.ERROR, "path-branch",
-                f"{S.kind[s]} #{S.handle[s]} on {S.layer[s]}: more than two path ends meet at "
-                f"{_fmt(P[e])}; a belt path cannot branch", at=(float(P[e, 0]), float(P[e, 1]))))
-    for ch in off_layer:
-        w0 = ch.wraps[0]
-        findings.append(Finding(
-            Severity.NOTE, "off-belt-layer",
-            f"a closed path on layer {ch.layer} wraps {len(ch.wraps)} circles but is not on the belt "
-            f"layers ({', '.join(belt_layers)}); not analysed",
-            at=(float(cx[w0.circle]), float(cy[w0.circle]))))
-    # map circle indices back to the drawing's numbering
-    for ch in chains:
-        for w in ch.wraps:
-            w.circle = int(keep[w.circle])
-    chains.sort(key=lambda ch: (int(S.order[ch.order]) if len(S.order) else 0, ch.order))
-    return Recognition(chains, alias, findings)
+        rlim = min(comp_r.get(int(comp[e // 2]), math.inf), comp_r.get(int(comp[f // 2]), math.inf))
+        if math.isfinite(rlim) and dist[a_i, 1] <= scene.tol.attach * rlim:
+            ends.connect(e, f, Link.GAP)
 
 
-#: Beyond this many ends arriving on one circle, pairing is greedy instead of exhaustive.
-_EXHAUSTIVE_PAIRS = 4
-
-
-def _pair_round_circle(c: int, es: list[int], P: NDArray[np.float64], T: NDArray[np.float64],
-                       cx: NDArray[np.float64], cy: NDArray[np.float64], arc_circle: NDArray[np.int64],
-                       layers: list[str]) -> list[tuple[int, int]]:
+def _pair_round_circle(c: int, es: list[int], ends: PathEnds, scene: _Scene,
+                       arc_circle: NDArray[np.int64]) -> list[tuple[int, int]]:
     """Pair open ends on circle ``c``: each pair is the belt going round the circle.
 
     An end whose outward tangent turns counter-clockwise round the centre (``+``) pairs with
@@ -457,10 +640,11 @@ def _pair_round_circle(c: int, es: list[int], P: NDArray[np.float64], T: NDArray
     as possible, and makes the shortest wrap left to the circle as long as possible (a belt
     cannot wrap nothing).
     """
-    ang = {e: math.atan2(P[e, 1] - cy[c], P[e, 0] - cx[c]) for e in es}
-    sgn = {e: 1 if ((P[e, 0] - cx[c]) * T[e, 1] - (P[e, 1] - cy[c]) * T[e, 0]) > 0 else -1 for e in es}
-    plus = sorted((e for e in es if sgn[e] > 0), key=lambda e: ang[e])
-    minus = [e for e in es if sgn[e] < 0]
+    P, T, layers = ends.point, ends.tangent, scene.S.layer
+    cx, cy = scene.cx[c], scene.cy[c]
+    ang = {e: math.atan2(P[e, 1] - cy, P[e, 0] - cx) for e in es}
+    plus = sorted((e for e in es if (P[e, 0] - cx) * T[e, 1] - (P[e, 1] - cy) * T[e, 0] > 0), key=ang.get)
+    minus = [e for e in es if e not in plus]
     if not plus or not minus:
         return []
     if len(plus) == 1 and len(minus) == 1:
@@ -469,27 +653,30 @@ def _pair_round_circle(c: int, es: list[int], P: NDArray[np.float64], T: NDArray
     def span(e: int, f: int) -> float:
         return (ang[f] - ang[e]) % (2 * math.pi)
 
-    def on_arc(e: int) -> bool:
-        return arc_circle[e // 2] == c
+    def beside_arc(e: int, f: int) -> bool:
+        return arc_circle[e // 2] == c or arc_circle[f // 2] == c
 
-    if len(plus) <= _EXHAUSTIVE_PAIRS and len(minus) <= _EXHAUSTIVE_PAIRS:
-        import itertools
+    if len(plus) > _EXHAUSTIVE_PAIRS or len(minus) > _EXHAUSTIVE_PAIRS:
+        return _pair_greedy(plus, minus, span)
+    best: tuple | None = None
+    best_pairs: list[tuple[int, int]] = []
+    k = min(len(plus), len(minus))
+    for chosen in itertools.permutations(minus, k):
+        for sub in itertools.combinations(plus, k):
+            pairs = [(e, f) for e, f in zip(sub, chosen) if e // 2 != f // 2]
+            if len(pairs) < k:
+                continue
+            same = sum(1 for e, f in pairs if layers[e // 2] == layers[f // 2])
+            gaps = sum(span(e, f) for e, f in pairs if beside_arc(e, f))
+            wraps = [span(e, f) for e, f in pairs if not beside_arc(e, f)]
+            key = (same, -gaps, min(wraps) if wraps else 0.0)
+            if best is None or key > best:
+                best, best_pairs = key, pairs
+    return best_pairs
 
-        best: tuple | None = None
-        best_pairs: list[tuple[int, int]] = []
-        k = min(len(plus), len(minus))
-        for chosen in itertools.permutations(minus, k):
-            for sub in itertools.combinations(plus, k):
-                pairs = [(e, f) for e, f in zip(sub, chosen) if e // 2 != f // 2]
-                if len(pairs) < k:
-                    continue
-                same = sum(1 for e, f in pairs if layers[e // 2] == layers[f // 2])
-                gaps = sum(span(e, f) for e, f in pairs if on_arc(e) or on_arc(f))
-                wraps = [span(e, f) for e, f in pairs if not (on_arc(e) or on_arc(f))]
-                key = (same, -gaps, min(wraps) if wraps else 0.0)
-                if best is None or key > best:
-                    best, best_pairs = key, pairs
-        return best_pairs
+
+def _pair_greedy(plus: list[int], minus: list[int], span) -> list[tuple[int, int]]:
+    """Each ``+`` end in angular order takes the nearest free ``-`` end counter-clockwise."""
     used: set[int] = set()
     out = []
     for e in plus:
@@ -501,135 +688,345 @@ def _pair_round_circle(c: int, es: list[int], P: NDArray[np.float64], T: NDArray
     return out
 
 
-def _mark_open(s0: int, partner: NDArray[np.int64], visited: NDArray[np.bool_]) -> None:
-    """Mark every piece reachable from ``s0`` through links as visited."""
-    stack = [s0]
-    while stack:
-        s = stack.pop()
-        for e in (2 * s, 2 * s + 1):
-            p = int(partner[e])
-            if p >= 0 and not visited[p // 2]:
-                visited[p // 2] = True
-                stack.append(p // 2)
+# --------------------------------------------------------------------------- walking
 
 
-def _assemble(walk: list[tuple[int, bool]], links: list[tuple[str, int, int, int]], S: Segments,
-              P: NDArray[np.float64], T: NDArray[np.float64], cx: NDArray[np.float64],
-              cy: NDArray[np.float64], cr: NDArray[np.float64], arc_circle: NDArray[np.int64],
-              arc_offset: NDArray[np.bool_], tol: Tolerances) -> Chain | None:
-    """Cut a closed walk into wraps and spans; ``None`` when it has fewer than two wraps.
+def _walk(s0: int, fwd0: bool, ends: PathEnds, limit: int) -> _Walk:
+    """Follow links from piece ``s0`` (entered at its start when ``fwd0``) until the walk
+    closes or reaches an open end."""
+    w = _Walk([], [], False)
+    s, fwd = s0, fwd0
+    for _ in range(limit):
+        w.pieces.append((s, fwd))
+        out_end = 2 * s + (1 if fwd else 0)
+        p = int(ends.partner[out_end])
+        if p < 0:
+            w.open_end = out_end
+            return w
+        w.links.append((out_end, p))
+        s, fwd = p // 2, (p % 2 == 0)
+        if s == s0:
+            w.closed = fwd == fwd0
+            return w
+    return w
 
-    The walk alternates pieces and the links between them. Each becomes an element
-    ``(kind, circle, turn, drawn, segment, a, b)`` with ``a``, ``b`` its drawn start and
-    end: ``wrap`` (an arc on a circle, or a link round a circle), ``line``, ``gap`` (a
-    link across open space), ``badarc`` (an arc on no circle).
-    """
-    elems: list[tuple[str, int, int, bool, int, tuple[float, float], tuple[float, float]]] = []
-    for (s, fwd), (kind, c, e_from, e_to) in zip(walk, links):
-        a_end, b_end = (2 * s, 2 * s + 1) if fwd else (2 * s + 1, 2 * s)
-        a, b = (float(P[a_end, 0]), float(P[a_end, 1])), (float(P[b_end, 0]), float(P[b_end, 1]))
-        if S.sweep[s] != 0.0:
-            ac = int(arc_circle[s])
-            if ac >= 0:
-                elems.append(("wrap", ac, 1 if (S.sweep[s] > 0) == fwd else -1, True, s, a, b))
-            else:
-                elems.append(("badarc", -1, 0, True, s, a, b))
+
+def _walk_all(segs: NDArray[np.int64], dropped: NDArray[np.bool_], ends: PathEnds, arcs: _Arcs,
+              comp: NDArray[np.int64], scene: _Scene, d: Drawing, keep: NDArray[np.int64]
+              ) -> tuple[list[Chain], _Strays, list[Finding]]:
+    """Walk every chain once: closed ones become loops (or strays), open ones path errors (or strays)."""
+    visited = dropped.copy()
+    chains: list[Chain] = []
+    off_layer: list[Chain] = []
+    strays = _Strays()
+    findings: list[Finding] = []
+    limit = 4 * len(scene.S) + 4
+    for s0 in segs.tolist():
+        if visited[s0]:
+            continue
+        w = _walk(s0, True, ends, limit)
+        if not w.closed and w.open_end >= 0:
+            e = w.open_end
+            w = _walk(e // 2, e % 2 == 0, ends, limit)       # the whole chain, from that open end
+        for s, _ in w.pieces:
+            visited[s] = True
+        if not w.closed:
+            findings.extend(_open_path(w, ends, arcs, comp, scene, strays))
+            continue
+        ch = _closed_chain(w, ends, arcs, scene, d, keep, strays)
+        if ch is None:
+            continue
+        if scene.restrict and not all(layer_matches(scene.S.layer[k], scene.belt_layers) for k in ch.segments):
+            off_layer.append(ch)
         else:
-            elems.append(("line", -1, 0, True, s, a, b))
-        pa = (float(P[e_from, 0]), float(P[e_from, 1]))
-        pb = (float(P[e_to, 0]), float(P[e_to, 1]))
-        if kind == "wrap":
-            rv = P[e_from] - (cx[c], cy[c])
-            turn = 1 if (rv[0] * T[e_from, 1] - rv[1] * T[e_from, 0]) > 0 else -1
-            elems.append(("wrap", c, turn, False, -1, pa, pb))
-        elif kind == "gap":
-            elems.append(("gap", -1, 0, False, -1, pa, pb))
+            chains.append(ch)
+    findings.extend(_off_layer_notes(off_layer, scene))
+    return chains, strays, findings
+
+
+def _touched(pieces: list[int], ends: PathEnds, arcs: _Arcs) -> set[int]:
+    out = {int(ends.circle[2 * k]) for k in pieces} | {int(ends.circle[2 * k + 1]) for k in pieces}
+    out |= {int(arcs.circle[k]) for k in pieces}
+    out.discard(-1)
+    return out
+
+
+def _open_path(w: _Walk, ends: PathEnds, arcs: _Arcs, comp: NDArray[np.int64], scene: _Scene,
+               strays: _Strays) -> list[Finding]:
+    """A ``path-open`` error for an open chain touching two or more circles that is meant as
+    a belt; such a chain that is not is counted as a stray."""
+    pieces = [s for s, _ in w.pieces]
+    touched = _touched(pieces, ends, arcs)
+    if w.open_end < 0 or len(touched) < 2:
+        return []
+    e = w.open_end
+    if not _component_meant(int(comp[e // 2]), comp, ends, arcs, scene):
+        strays.add(ends.xy(e))
+        return []
+    S = scene.S
+    s = e // 2
+    return [Finding(Severity.ERROR, "path-open",
+                    f"{S.kind[s]} #{S.handle[s]} on {S.layer[s]}: the belt path touching {len(touched)} "
+                    f"pulleys is not closed; its end at {_fmt(ends.point[e])} meets nothing",
+                    at=ends.xy(e), data={"circles": sorted(touched)})]
+
+
+def _branch_findings(branches: list[int], ends: PathEnds, arcs: _Arcs, comp: NDArray[np.int64],
+                     scene: _Scene, strays: _Strays) -> list[Finding]:
+    """A ``path-branch`` error where three or more ends of a chain meant as a belt meet."""
+    out = []
+    S = scene.S
+    for e in branches:
+        s = e // 2
+        if not _component_meant(int(comp[s]), comp, ends, arcs, scene):
+            strays.add(ends.xy(e))
+            continue
+        out.append(Finding(
+            Severity.ERROR, "path-branch",
+            f"{S.kind[s]} #{S.handle[s]} on {S.layer[s]}: more than two path ends meet at "
+            f"{_fmt(ends.point[e])}; a belt path cannot branch", at=ends.xy(e)))
+    return out
+
+
+def _stray_note(strays: _Strays) -> Finding:
+    n = strays.count
+    what = "chain of lines and arcs touches" if n == 1 else "chains of lines and arcs touch"
+    return Finding(Severity.NOTE, "stray-paths",
+                   f"{n} {what} circles without looking like a belt (not on a belt layer, no labelled "
+                   f"pulley, spans not tangent): not analysed; the first at {_fmt(strays.at)}",
+                   at=strays.at, data={"count": n})
+
+
+def _off_layer_notes(off_layer: list[Chain], scene: _Scene) -> list[Finding]:
+    out = []
+    for ch in off_layer:
+        w0 = ch.wraps[0]
+        out.append(Finding(
+            Severity.NOTE, "off-belt-layer",
+            f"a closed path on layer {ch.layer} wraps {len(ch.wraps)} circles but is not on the belt "
+            f"layers ({', '.join(scene.belt_layers)}); not analysed",
+            at=(float(scene.cx[w0.circle]), float(scene.cy[w0.circle]))))
+    return out
+
+
+# --------------------------------------------------------------------------- evidence
+
+
+def _tangent_at(a: NDArray[np.float64], b: NDArray[np.float64], c: int, radius: float, scene: _Scene) -> bool:
+    """Whether the line through ``a`` and ``b`` is tangent to circle ``c`` (pitch ``radius``,
+    or a belt height outside it) within the attach tolerance."""
+    u = b - a
+    length = float(np.hypot(u[0], u[1]))
+    if length == 0:
+        return False
+    q = np.array([scene.cx[c], scene.cy[c]]) - a
+    dist = abs(float(u[0] * q[1] - u[1] * q[0])) / length
+    lim = scene.tol.attach * float(scene.cr[c])
+    return abs(dist - radius) <= lim or (scene.height > 0 and abs(dist - scene.cr[c] - scene.height) <= lim)
+
+
+def _on_belt_layer(layers: list[str], scene: _Scene) -> bool:
+    """Whether most of the pieces lie on a belt layer."""
+    return bool(layers) and layer_matches(Counter(layers).most_common(1)[0][0], scene.belt_layers)
+
+
+def _component_meant(k: int, comp: NDArray[np.int64], ends: PathEnds, arcs: _Arcs, scene: _Scene) -> bool:
+    """Whether the pieces of component ``k`` are evidently meant as a belt: on a belt layer,
+    touching a named circle, or mostly arcs on circles and lines tangent at both ends."""
+    S = scene.S
+    pieces = np.flatnonzero(comp == k)
+    if _on_belt_layer([S.layer[s] for s in pieces.tolist()], scene):
+        return True
+    touched = _touched(pieces.tolist(), ends, arcs)
+    if any(scene.named[c] for c in touched):
+        return True
+    near = _attach(ends.point[np.concatenate([2 * pieces, 2 * pieces + 1])], scene, scene.tol.slip)
+    near_start, near_end = near[:pieces.size], near[pieces.size:]
+    good = 0
+    for i, s in enumerate(pieces.tolist()):
+        if arcs.circle[s] >= 0:
+            good += 1
+            continue
+        ca, cb = int(near_start[i]), int(near_end[i])
+        if S.sweep[s] == 0.0 and ca >= 0 and cb >= 0 and ca != cb:
+            a, b = ends.point[2 * s], ends.point[2 * s + 1]
+            good += _tangent_at(a, b, ca, float(scene.cr[ca]), scene) and _tangent_at(a, b, cb, float(scene.cr[cb]), scene)
+    return good >= 2 and good >= BELT_LIKE_SHARE * pieces.size
+
+
+def _chain_meant(ch: Chain, ends: PathEnds, scene: _Scene) -> bool:
+    """Whether a closed chain is evidently meant as a belt: on a belt layer, wrapping a named
+    circle, or with most of its drawn spans tangent to the circles at both their ends."""
+    if layer_matches(ch.layer, scene.belt_layers) or any(scene.named[w.circle] for w in ch.wraps):
+        return True
+    n = len(ch.wraps)
+    drawn = tangent = 0
+    for k, span in enumerate(ch.spans):
+        lines = [(s, f) for s, f in span.pieces if scene.S.sweep[s] == 0.0]
+        if not lines:
+            continue
+        drawn += 1
+        first, last = lines[0], lines[-1]
+        a0, b0 = _piece_points(first, ends)
+        a1, b1 = _piece_points(last, ends)
+        w0, w1 = ch.wraps[k], ch.wraps[(k + 1) % n]
+        tangent += _tangent_at(a0, b0, w0.circle, w0.radius, scene) and _tangent_at(a1, b1, w1.circle, w1.radius, scene)
+    if drawn == 0:
+        return True                   # every span left to a drawn wrap's ends: arcs on circles only
+    return tangent >= 1 and tangent >= BELT_LIKE_SHARE * drawn
+
+
+def _piece_points(piece: tuple[int, bool], ends: PathEnds) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
+    s, fwd = piece
+    a, b = ends.point[2 * s], ends.point[2 * s + 1]
+    return (a, b) if fwd else (b, a)
+
+
+# --------------------------------------------------------------------------- classifying
+
+
+def _closed_chain(w: _Walk, ends: PathEnds, arcs: _Arcs, scene: _Scene, d: Drawing, keep: NDArray[np.int64],
+                  strays: _Strays) -> Chain | None:
+    """The loop a closed walk draws, or ``None`` (an outline, a slot, a symbol, a stray)."""
+    ch = _assemble(w, ends, arcs, scene)
+    if ch is None:
+        return None
+    cr = scene.cr
+    offsets = [wr for wr in ch.wraps if wr.radius != cr[wr.circle]]
+    exact = [wr for wr in ch.wraps if wr.radius == cr[wr.circle] and not wr.slipped]
+    if len(exact) < 1 or len(ch.wraps) - len(offsets) < 2:
+        return None                                  # an outline, a slot, a symbol: not a belt
+    ch.layer = Counter(scene.S.layer[k] for k in ch.segments).most_common(1)[0][0]
+    if not _chain_meant(ch, ends, scene):
+        strays.add(ends.xy(2 * ch.segments[0]))
+        return None
+    for wr in offsets:
+        ch.findings.append(Finding(
+            Severity.NOTE, "back-offset",
+            f"the path round CIRCLE #{d.circles.handle[keep[wr.circle]]} at "
+            f"{_fmt((scene.cx[wr.circle], scene.cy[wr.circle]))} runs {wr.radius - cr[wr.circle]:.6g} outside it: "
+            f"taken as a back idler drawn at its outside diameter, pitch radius {wr.radius:.6g}",
+            at=(float(scene.cx[wr.circle]), float(scene.cy[wr.circle]))))
+    return ch
+
+
+def _elements(w: _Walk, ends: PathEnds, arcs: _Arcs, scene: _Scene) -> list[_Element]:
+    """A closed walk as alternating pieces and links: ``wrap`` (an arc on a circle, or a link
+    round one), ``line``, ``gap`` (a link across open space), ``badarc`` (an arc on no circle)."""
+    S = scene.S
+    out: list[_Element] = []
+    for (s, fwd), (e_from, e_to) in zip(w.pieces, w.links):
+        a, b = (ends.xy(2 * s), ends.xy(2 * s + 1)) if fwd else (ends.xy(2 * s + 1), ends.xy(2 * s))
+        if S.sweep[s] == 0.0:
+            out.append(_Element("line", -1, 0, True, s, a, b))
+        elif arcs.circle[s] >= 0:
+            out.append(_Element("wrap", int(arcs.circle[s]), 1 if (S.sweep[s] > 0) == fwd else -1, True, s, a, b))
+        else:
+            out.append(_Element("badarc", -1, 0, True, s, a, b))
+        kind = Link(int(ends.link[e_from]))
+        if kind is Link.WRAP:
+            c = int(ends.link_circle[e_from])
+            rv = ends.point[e_from] - (scene.cx[c], scene.cy[c])
+            turn = 1 if (rv[0] * ends.tangent[e_from, 1] - rv[1] * ends.tangent[e_from, 0]) > 0 else -1
+            out.append(_Element("wrap", c, turn, False, -1, ends.xy(e_from), ends.xy(e_to)))
+        elif kind is Link.GAP:
+            out.append(_Element("gap", -1, 0, False, -1, ends.xy(e_from), ends.xy(e_to)))
+    return out
+
+
+def _assemble(w: _Walk, ends: PathEnds, arcs: _Arcs, scene: _Scene) -> Chain | None:
+    """Cut a closed walk into wraps, spans and faults; ``None`` when it has fewer than two wraps."""
+    elems = _elements(w, ends, arcs, scene)
     n = len(elems)
 
     def same_wrap(i: int, j: int) -> bool:
-        return elems[i][0] == "wrap" and elems[j][0] == "wrap" and elems[i][1] == elems[j][1]
+        return elems[i].kind == "wrap" and elems[j].kind == "wrap" and elems[i].circle == elems[j].circle
 
-    starts = [i for i in range(n) if elems[i][0] == "wrap" and not same_wrap((i - 1) % n, i)]
+    starts = [i for i in range(n) if elems[i].kind == "wrap" and not same_wrap((i - 1) % n, i)]
     if len(starts) < 2:
         return None
     elems = elems[starts[0]:] + elems[:starts[0]]
-    wraps: list[Wrap] = []
-    spans: list[DrawnSpan] = []
-    gaps: list[tuple[tuple[float, float], tuple[float, float]]] = []
-    kinks: list[tuple[float, float]] = []
-    badarcs: list[int] = []
+    S = scene.S
+    order = min((int(S.order[s]) if len(S.order) else s, s) for s, _ in w.pieces)[1]
+    ch = Chain([], [], [s for s, _ in w.pieces], "", order)
     prev_dir: NDArray[np.float64] | None = None
-    for i, (kind, c, turn, drawn, s, a, b) in enumerate(elems):
-        if kind == "wrap":
-            if i > 0 and same_wrap(i - 1, i):
-                w = wraps[-1]
-                w.leave = b
-                if s >= 0:
-                    w.segments.append(s)
-                if drawn and not w.drawn:
-                    w.drawn, w.turn = True, turn
-                    if w.radius == cr[c] and arc_offset[s]:
-                        w.radius = float(S.r[s])
-                continue
-            radius = float(S.r[s]) if drawn and arc_offset[s] else float(cr[c])
-            wraps.append(Wrap(c, turn, drawn, radius, [s] if s >= 0 else [], arrive=a, leave=b))
-            spans.append(DrawnSpan())
+    for i, el in enumerate(elems):
+        if el.kind == "wrap":
+            _add_wrap(ch, el, i > 0 and elems[i - 1].kind == "wrap" and elems[i - 1].circle == el.circle,
+                      arcs, scene)
             prev_dir = None
-            continue
-        span = spans[-1]
-        if kind == "line":
-            d = np.array([b[0] - a[0], b[1] - a[1]])
-            d /= max(float(np.hypot(d[0], d[1])), 1e-300)
-            if prev_dir is not None:
-                bend = math.degrees(math.acos(max(-1.0, min(1.0, float(np.dot(prev_dir, d))))))
-                if bend > tol.tangent_deg:
-                    kinks.append(a)
-            prev_dir = d
-            span.pieces.append((s, bool(np.array_equal(a, (S.x0[s], S.y0[s])))))
-        elif kind == "gap":
-            gaps.append((a, b))
+        elif el.kind == "line":
+            prev_dir = _add_line(ch, el, prev_dir, elems[i - 1], scene)
+        elif el.kind == "gap":
+            ch.faults.append(_gap(el.a, el.b, _neighbours(elems, i)))
         else:
-            badarcs.append(s)
+            ch.faults.append(Fault("off-arc", el.a, el.b, (el.segment,)))
             prev_dir = None
-    # gaps inside drawn wraps: a link round a circle next to an arc on it
-    for kind_elems in _wrap_links_beside_arcs(elems):
-        gaps.append(kind_elems)
-    chain = Chain(wraps, spans, [s for s, _ in walk], "",
-                  min((int(S.order[s]) if len(S.order) else s, s) for s, _ in walk)[1])
-    for a, b in gaps:
-        size = math.hypot(a[0] - b[0], a[1] - b[1])
-        chain.findings.append(Finding(
-            Severity.ERROR, "path-gap",
-            f"the belt path has a gap of {size:.6g} between {_fmt(a)} and {_fmt(b)}; draw the "
-            f"path closed", at=((a[0] + b[0]) / 2.0, (a[1] + b[1]) / 2.0), data={"gap": size}))
-    for p in kinks:
-        chain.findings.append(Finding(
-            Severity.ERROR, "span-kink",
-            f"the belt path bends at {_fmt(p)} where there is no pulley; a free span is straight",
-            at=(float(p[0]), float(p[1]))))
-    for s in badarcs:
-        chain.findings.append(Finding(
-            Severity.ERROR, "arc-off-pulley",
-            f"{S.kind[s]} #{S.handle[s]} on {S.layer[s]}: arc of radius {S.r[s]:.6g} centred at "
-            f"{_fmt((S.cx[s], S.cy[s]))} lies on no pulley circle; the belt bends only round a pulley",
-            at=(float((S.x0[s] + S.x1[s]) / 2.0), float((S.y0[s] + S.y1[s]) / 2.0))))
-    return chain
+    ch.faults.extend(_gaps_beside_arcs(elems))
+    return ch
 
 
-def _wrap_links_beside_arcs(elems: list[tuple]) -> list[tuple[tuple[float, float], tuple[float, float]]]:
+def _add_wrap(ch: Chain, el: _Element, continues: bool, arcs: _Arcs, scene: _Scene) -> None:
+    """Start a wrap (and the span leaving it), or extend the wrap the element continues."""
+    S, c, s = scene.S, el.circle, el.segment
+    if continues:
+        w = ch.wraps[-1]
+        w.leave = el.b
+        if s >= 0:
+            w.segments.append(s)
+        if el.drawn and not w.drawn:
+            w.drawn, w.turn = True, el.turn
+            if w.radius == scene.cr[c] and arcs.offset[s]:
+                w.radius = float(S.r[s])
+    else:
+        radius = float(S.r[s]) if el.drawn and arcs.offset[s] else float(scene.cr[c])
+        ch.wraps.append(Wrap(c, el.turn, el.drawn, radius, [s] if s >= 0 else [], arrive=el.a, leave=el.b))
+        ch.spans.append(DrawnSpan())
+    if el.drawn and arcs.slipped[s]:
+        w = ch.wraps[-1]
+        w.slipped = True
+        miss = max(abs(math.hypot(p[0] - scene.cx[c], p[1] - scene.cy[c]) - scene.cr[c]) for p in (el.a, el.b))
+        ch.faults.append(Fault("slipped-arc", el.a, el.b, (s,), c, float(miss)))
+
+
+def _add_line(ch: Chain, el: _Element, prev_dir: NDArray[np.float64] | None, before: _Element,
+              scene: _Scene) -> NDArray[np.float64]:
+    """Add a line to the current span; a bend from the previous line is a kink. The new direction."""
+    a, b, s = el.a, el.b, el.segment
+    d = np.array([b[0] - a[0], b[1] - a[1]])
+    d /= max(float(np.hypot(d[0], d[1])), 1e-300)
+    if prev_dir is not None:
+        bend = math.degrees(math.acos(max(-1.0, min(1.0, float(np.dot(prev_dir, d))))))
+        if bend > scene.tol.tangent_deg:
+            ch.faults.append(Fault("kink", a, a, (before.segment, s)))
+    S = scene.S
+    ch.spans[-1].pieces.append((s, bool(np.array_equal(a, (S.x0[s], S.y0[s])))))
+    return d
+
+
+def _neighbours(elems: list[_Element], i: int) -> tuple[int, ...]:
+    n = len(elems)
+    return tuple(x for x in (elems[(i - 1) % n].segment, elems[(i + 1) % n].segment) if x >= 0)
+
+
+def _gap(a: tuple[float, float], b: tuple[float, float], segments: tuple[int, ...], circle: int = -1) -> Fault:
+    return Fault("gap", a, b, segments, circle, math.hypot(a[0] - b[0], a[1] - b[1]))
+
+
+def _gaps_beside_arcs(elems: list[_Element]) -> list[Fault]:
     """Links round a circle in a wrap group that also holds a drawn arc: each is a gap."""
     out = []
     n = len(elems)
     i = 0
     while i < n:
-        if elems[i][0] != "wrap":
+        if elems[i].kind != "wrap":
             i += 1
             continue
         j = i
-        while j + 1 < n and elems[j + 1][0] == "wrap" and elems[j + 1][1] == elems[i][1]:
+        while j + 1 < n and elems[j + 1].kind == "wrap" and elems[j + 1].circle == elems[i].circle:
             j += 1
-        group = elems[i:j + 1]
-        if any(e[3] for e in group):
-            out.extend((e[5], e[6]) for e in group if not e[3])
+        if any(e.drawn for e in elems[i:j + 1]):
+            out.extend(_gap(e.a, e.b, _neighbours(elems, k), e.circle)
+                       for k, e in enumerate(elems) if i <= k <= j and not e.drawn)
         i = j + 1
     return out

@@ -81,7 +81,7 @@ CODES: dict[str, Code] = {c.code: c for c in (
     _code("recovered", N, W, "the file was read by the recovery reader (warning when truncated)"),
     _code("crossed-spans", N, "spans of one loop cross: a half twist in each"),
     _code("units-assumed", N, "no units declared: millimetres assumed"),
-    _code("duplicate-entity", N, "an entity repeats another and is ignored"),
+    _code("duplicate-entity", N, "entities repeating others are ignored (one note with the count)"),
     _code("back-offset", N, "a back idler drawn at its outside diameter"),
     _code("off-belt-layer", N, "a loop-like path off the spec's `belt_layers`, not analysed"),
     _code("label-overridden", N, "the spec renames a labelled pulley"),
@@ -91,6 +91,7 @@ CODES: dict[str, Code] = {c.code: c for c in (
     _code("friction-derived", N, "groove friction derived as mu / sin(groove/2) above 0.6"),
     _code("mass-unknown", N, "no mass per length: centrifugal tension and frequencies left out"),
     _code("span-weight", N, "a span's weight over its rise exceeds 5 % of its tension (left out of the steps)"),
+    _code("stray-paths", N, "chains touching circles that do not look like a belt, counted in one note"),
     _code("possible-slot", N, "two small equal circles joined by tangent lines: a slot, not a loop"),
     _code("direction-assumed", N, "the speed source has no direction: counter-clockwise assumed"),
 )}

@@ -18,9 +18,10 @@ import numpy as np
 from numpy.typing import NDArray
 
 from .findings import Finding, Severity
-from .model import Drive, Loop, Role
+from .model import Drive, Loop, Pulley, Role
 
-__all__ = ["LoopKinematics", "Kinematics", "solve_kinematics", "loop_torques"]
+__all__ = ["LoopKinematics", "Kinematics", "Travel", "loop_shaft_graph", "travel_plan", "solve_kinematics",
+           "loop_torques"]
 
 
 @dataclass(frozen=True, slots=True)
@@ -74,6 +75,87 @@ def _shaft_of(drive: Drive) -> dict[str, int]:
     return shaft
 
 
+def loop_shaft_graph(drive: Drive) -> nx.MultiGraph:
+    """The drive's one loop–shaft graph: loop nodes ``("loop", id)``, shaft nodes ``("shaft", k)``.
+
+    An edge joins a loop and a shaft for every pulley of the loop on that shaft (parallel
+    edges where a loop touches one shaft twice), with the pulley's id as ``pulley``.
+    """
+    shaft = _shaft_of(drive)
+    g = nx.MultiGraph()
+    for lp in drive.loops:
+        g.add_node(("loop", lp.id))
+        for p in lp.pulleys:
+            g.add_edge(("loop", lp.id), ("shaft", shaft[p]), pulley=p)
+    return g
+
+
+@dataclass(frozen=True, slots=True)
+class Travel:
+    """How a loop must be listed to travel as the speed source turns it: reversed or not, and
+    starting from ``first``, its pulley on the shaft it is driven through."""
+
+    reverse: bool
+    first: str
+
+
+def _reached(drive: Drive, g: nx.MultiGraph, src_shaft: int) -> list[tuple[str, int]]:
+    """Loops reached from the source's shaft, breadth first, each with the shaft it is reached through."""
+    return [(b[1], a[1]) for a, b in nx.bfs_edges(g, ("shaft", src_shaft)) if a[0] == "shaft" and b[0] == "loop"]
+
+
+def travel_plan(drive: Drive) -> dict[str, Travel]:
+    """For each loop the speed source reaches, how to list it so that it travels the way its
+    shafts turn (the source's ``direction``, counter-clockwise when not given).
+
+    Empty when no pulley gives a speed or no loop runs on the source's shaft. The plan is
+    followed with :func:`solve_kinematics`'s order, so a drive listed by it raises no
+    ``direction-conflict``.
+    """
+    src = next((p for p in drive.pulleys.values() if p.speed_rad_s is not None), None)
+    shaft = _shaft_of(drive)
+    g = loop_shaft_graph(drive)
+    if src is None or ("shaft", shaft[src.id]) not in g:
+        return {}
+    turning = {shaft[src.id]: src.direction or 1}
+    by_id = {lp.id: lp for lp in drive.loops}
+    plan: dict[str, Travel] = {}
+    for lid, k in _reached(drive, g, shaft[src.id]):
+        lp = by_id[lid]
+        entry = next(i for i, p in enumerate(lp.pulleys) if shaft[p] == k)
+        reverse = lp.turns[entry] != turning[k]
+        for p, t in zip(lp.pulleys, lp.turns):
+            turning.setdefault(shaft[p], -t if reverse else t)
+        plan[lid] = Travel(reverse, lp.pulleys[entry])
+    return plan
+
+
+def _source_problems(drive: Drive, g: nx.MultiGraph, shaft: dict[str, int], src: Pulley,
+                     others: list[Pulley]) -> tuple[list[Finding], bool]:
+    """``ambiguous-drive`` findings about the source; True when the loops cannot be followed."""
+    out: list[Finding] = []
+    if ("shaft", shaft[src.id]) not in g:
+        out.append(Finding(Severity.ERROR, "ambiguous-drive",
+                           f"pulley {src.id} gives the speed but no belt loop runs on it or on its "
+                           f"shaft; no loop can be driven from it", refs=(src.id,)))
+        return out, True
+    comp = nx.node_connected_component(g, ("shaft", shaft[src.id]))
+    for other in others:
+        if ("shaft", shaft[other.id]) in comp:
+            out.append(Finding(Severity.ERROR, "ambiguous-drive",
+                               f"pulleys {src.id} and {other.id} both give a speed; one speed "
+                               f"source per drive", refs=(src.id, other.id)))
+    simple = nx.Graph(g.subgraph(comp))
+    if simple.number_of_edges() != g.subgraph(comp).number_of_edges() or not nx.is_forest(simple):
+        cyc = [lp.id for lp in drive.loops if ("loop", lp.id) in comp]
+        out.append(Finding(Severity.ERROR, "ambiguous-drive",
+                           f"loops {', '.join(cyc)} close a cycle through their shafts (or one loop "
+                           f"touches a shaft twice); the speeds cannot be followed from the source",
+                           refs=tuple(cyc)))
+        return out, True
+    return out, False
+
+
 def solve_kinematics(drive: Drive) -> Kinematics:
     """Speeds of every pulley per unit source speed, and the order loops are solved in.
 
@@ -81,51 +163,38 @@ def solve_kinematics(drive: Drive) -> Kinematics:
     of loops, a loop no shaft links to the source), ``direction-conflict`` (a loop's
     travel order disagrees with the rotation its shaft gives it).
     """
-    findings: list[Finding] = []
     sources = [p for p in drive.pulleys.values() if p.speed_rad_s is not None]
-    shaft = _shaft_of(drive)
-    g = nx.MultiGraph()
-    for lp in drive.loops:
-        g.add_node(("loop", lp.id))
-        for p in lp.pulleys:
-            g.add_edge(("loop", lp.id), ("shaft", shaft[p]), pulley=p)
     if not sources:
-        return Kinematics(None, None, 1, None, findings=tuple(findings))
+        return Kinematics(None, None, 1, None)
     src = sources[0]
-    if ("shaft", shaft[src.id]) not in g:
-        findings.append(Finding(Severity.ERROR, "ambiguous-drive",
-                                f"pulley {src.id} gives the speed but no belt loop runs on it or on its "
-                                f"shaft; no loop can be driven from it", refs=(src.id,)))
-        return Kinematics(src.id, src.speed_rad_s, src.direction or 1, src.speed_range_rad_s,
-                          findings=tuple(findings))
-    comp_of_src = nx.node_connected_component(g, ("shaft", shaft[src.id]))
-    for other in sources[1:]:
-        if ("shaft", shaft[other.id]) in comp_of_src:
-            findings.append(Finding(Severity.ERROR, "ambiguous-drive",
-                                    f"pulleys {src.id} and {other.id} both give a speed; one speed "
-                                    f"source per drive", refs=(src.id, other.id)))
-    simple = nx.Graph(g.subgraph(comp_of_src))
-    if simple.number_of_edges() != g.subgraph(comp_of_src).number_of_edges() or not nx.is_forest(simple):
-        cyc = [lp.id for lp in drive.loops if ("loop", lp.id) in comp_of_src]
-        findings.append(Finding(Severity.ERROR, "ambiguous-drive",
-                                f"loops {', '.join(cyc)} close a cycle through their shafts (or one loop "
-                                f"touches a shaft twice); the speeds cannot be followed from the source",
-                                refs=tuple(cyc)))
+    shaft = _shaft_of(drive)
+    g = loop_shaft_graph(drive)
+    findings, stop = _source_problems(drive, g, shaft, src, sources[1:])
+    if stop:
         return Kinematics(src.id, src.speed_rad_s, src.direction or 1, src.speed_range_rad_s,
                           findings=tuple(findings))
     direction = src.direction or 1
-    omega_shaft: dict[int, float] = {shaft[src.id]: float(direction)}   # per unit source speed
-    loops: dict[str, LoopKinematics] = {}
-    order: list[str] = []
+    reached = _reached(drive, g, shaft[src.id])
+    loops = _loop_speeds(drive, shaft, shaft[src.id], direction, reached, findings)
+    order = [lid for lid, _ in reached]
+    loops = _with_downstream(loops, order, dict(reached), shaft)
+    for lp in drive.loops:
+        if lp.id not in loops and ("loop", lp.id) in g:
+            findings.append(Finding(Severity.ERROR, "ambiguous-drive",
+                                    f"loop {lp.id}: no shaft links it to the speed source {src.id}; give "
+                                    f"it its own drive or join it by a shaft", refs=(lp.id,)))
+    return Kinematics(src.id, src.speed_rad_s, direction, src.speed_range_rad_s, loops, tuple(order),
+                      tuple(findings))
+
+
+def _loop_speeds(drive: Drive, shaft: dict[str, int], src_shaft: int, direction: int,
+                 reached: list[tuple[str, int]], findings: list[Finding]) -> dict[str, LoopKinematics]:
+    """Each reached loop's pulley speeds per unit source speed, from the shaft that drives it."""
+    omega_shaft: dict[int, float] = {src_shaft: float(direction)}
     by_id = {lp.id: lp for lp in drive.loops}
-    parent_shaft: dict[str, int] = {}
-    for a, b in nx.bfs_edges(simple, ("shaft", shaft[src.id])):
-        if a[0] == "shaft" and b[0] == "loop":
-            parent_shaft[b[1]] = a[1]
-            order.append(b[1])
-    for lid in order:
+    loops: dict[str, LoopKinematics] = {}
+    for lid, k_in in reached:
         lp = by_id[lid]
-        k_in = parent_shaft[lid]
         entry = next(i for i, p in enumerate(lp.pulleys) if shaft[p] == k_in)
         w_entry = omega_shaft[k_in]
         r = np.asarray([drive.pulleys[p].radius_m for p in lp.pulleys])
@@ -137,7 +206,7 @@ def solve_kinematics(drive: Drive) -> Kinematics:
         v = abs(w_entry) * r[entry]
         omega = turns * v / r
         driver = entry
-        if k_in == shaft[src.id]:
+        if k_in == src_shaft:
             cands = [i for i, p in enumerate(lp.pulleys)
                      if drive.pulleys[p].role is Role.DRIVER and drive.pulleys[p].power_w is None
                      and drive.pulleys[p].torque_nm is None]
@@ -146,24 +215,22 @@ def solve_kinematics(drive: Drive) -> Kinematics:
         for i, p in enumerate(lp.pulleys):
             omega_shaft.setdefault(shaft[p], float(omega[i]))
         loops[lid] = LoopKinematics(lp, driver, omega, float(v), ())
-    # which loops each pulley feeds through its shaft
+    return loops
+
+
+def _with_downstream(loops: dict[str, LoopKinematics], order: list[str], parent_shaft: dict[str, int],
+                     shaft: dict[str, int]) -> dict[str, LoopKinematics]:
+    """Each loop with, per pulley, the later loops its shaft passes power on to."""
     feeds: dict[int, list[str]] = {}
     for lid in order:
         feeds.setdefault(parent_shaft[lid], []).append(lid)
+    out = {}
     for lid in order:
         lk = loops[lid]
-        down = []
-        for p in lk.loop.pulleys:
-            k = shaft[p]
-            down.append(tuple(x for x in feeds.get(k, []) if x != lid and order.index(x) > order.index(lid)))
-        loops[lid] = LoopKinematics(lk.loop, lk.driver, lk.omega_per_source, lk.speed_per_source, tuple(down))
-    for lp in drive.loops:
-        if lp.id not in loops and ("loop", lp.id) in g:
-            findings.append(Finding(Severity.ERROR, "ambiguous-drive",
-                                    f"loop {lp.id}: no shaft links it to the speed source {src.id}; give "
-                                    f"it its own drive or join it by a shaft", refs=(lp.id,)))
-    return Kinematics(src.id, src.speed_rad_s, direction, src.speed_range_rad_s, loops, tuple(order),
-                      tuple(findings))
+        down = tuple(tuple(x for x in feeds.get(shaft[p], []) if x != lid and order.index(x) > order.index(lid))
+                     for p in lk.loop.pulleys)
+        out[lid] = LoopKinematics(lk.loop, lk.driver, lk.omega_per_source, lk.speed_per_source, down)
+    return out
 
 
 def loop_torques(drive: Drive, kin: Kinematics, source_speed: NDArray[np.float64]

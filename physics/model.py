@@ -123,6 +123,9 @@ class Pulley:
     arm_torque_nm: float | None = None
     adjust: tuple[float, float] | None = None  # unit direction the pulley may slide along
 
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "role", choice(Role, self.role, f"Pulley({self.id!r}).role"))
+
 
 @dataclass(frozen=True, slots=True)
 class Belt:
@@ -165,6 +168,10 @@ class Loop:
     sides: tuple[Side, ...]
     crossed: tuple[bool, ...]
     belt: Belt = field(default_factory=Belt)
+
+    def __post_init__(self) -> None:
+        what = f"Loop({self.id!r}).sides"
+        object.__setattr__(self, "sides", tuple(choice(Side, s, what) for s in self.sides))
 
     @property
     def span_ids(self) -> tuple[str, ...]:
