@@ -22,7 +22,7 @@ from .read import Drawing
 from .recognize import Chain, Recognition, Tolerances, layer_matches
 from .spec import PULLEY_KEYS, PulleySpec, Spec, parse_label_words, pulley_values, valid_id
 
-__all__ = ["Names", "named_circles", "name_pulleys", "SLOT_MAX_DIAMETER_M"]
+__all__ = ["Names", "texts_in_circles", "named_circles", "name_pulleys", "SLOT_MAX_DIAMETER_M"]
 
 #: A slot's circles are under this diameter (design, "Geometry rules").
 SLOT_MAX_DIAMETER_M = 0.020
@@ -70,8 +70,8 @@ def _containing(d: Drawing, x: float, y: float, candidates: np.ndarray | None = 
     return sorted(inside.tolist(), key=lambda i: c.r[i])
 
 
-def _texts_in_circles(d: Drawing) -> dict[int, list[int]]:
-    """For each text, the circles whose bounding boxes hold its anchor."""
+def texts_in_circles(d: Drawing) -> dict[int, list[int]]:
+    """For each text, the circles whose bounding boxes hold its anchor (one spatial query)."""
     t, c = d.texts, d.circles
     hits: dict[int, list[int]] = {}
     if len(t) and len(c):
@@ -91,10 +91,11 @@ def _label_words(text: str) -> list[str] | None:
     return words
 
 
-def _text_labels(d: Drawing, wrapped: set[int], alias: np.ndarray, problems: list[str]) -> list[_Label]:
+def _text_labels(d: Drawing, hits: dict[int, list[int]], wrapped: set[int], alias: np.ndarray,
+                 problems: list[str]) -> list[_Label]:
     t = d.texts
     labels: list[_Label] = []
-    for k, cands in sorted(_texts_in_circles(d).items()):
+    for k, cands in sorted(hits.items()):
         words = _label_words(t.text[k])
         if words is None:
             continue
@@ -140,13 +141,13 @@ def _attrib_labels(d: Drawing, wrapped: set[int], alias: np.ndarray, problems: l
     return labels
 
 
-def named_circles(d: Drawing, spec: Spec) -> set[int]:
+def named_circles(d: Drawing, spec: Spec, hits: dict[int, list[int]]) -> set[int]:
     """Circles a label, a block attribute or the spec's ``at`` names as pulleys: evidence that a
     path touching them is meant as a belt. A bare thread callout ("M8") in a hole is not."""
     out: set[int] = set()
     t, c = d.texts, d.circles
     spec_ids = set(spec.pulleys)
-    for k, cands in _texts_in_circles(d).items():
+    for k, cands in hits.items():
         words = _label_words(t.text[k])
         if words is None or (len(words) == 1 and _THREAD.match(words[0]) and words[0].lower() not in spec_ids):
             continue
@@ -164,8 +165,8 @@ def named_circles(d: Drawing, spec: Spec) -> set[int]:
 # --------------------------------------------------------------------------- names
 
 
-def name_pulleys(d: Drawing, spec: Spec, rec: Recognition, factor: float, tol: Tolerances,
-                 findings: list[Finding], problems: list[str]) -> Names:
+def name_pulleys(d: Drawing, spec: Spec, rec: Recognition, hits: dict[int, list[int]], factor: float,
+                 tol: Tolerances, findings: list[Finding], problems: list[str]) -> Names:
     """Name every wrapped circle (and every labelled or spec-placed one).
 
     Slot-like chains are taken out of ``rec.chains`` here (a ``possible-slot`` note), since
@@ -174,8 +175,8 @@ def name_pulleys(d: Drawing, spec: Spec, rec: Recognition, factor: float, tol: T
     """
     wrapped = {w.circle for ch in rec.chains for w in ch.wraps}
     names = Names()
-    labels = _text_labels(d, wrapped, rec.circle_alias, problems) + _attrib_labels(d, wrapped, rec.circle_alias,
-                                                                                  problems)
+    labels = (_text_labels(d, hits, wrapped, rec.circle_alias, problems)
+              + _attrib_labels(d, wrapped, rec.circle_alias, problems))
     spec_ids = set(spec.pulleys) | {p.lower() for r in spec.routes.values() for p in r.pulleys}
     for lab in labels:
         _apply_label(names, lab, wrapped, spec_ids, d, findings, problems)

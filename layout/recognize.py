@@ -183,6 +183,7 @@ class PathEnds:
     point: NDArray[np.float64]           # (2n, 2)
     tangent: NDArray[np.float64]         # (2n, 2) outward unit tangent
     circle: NDArray[np.int64]            # circle the end lies on (attach tolerance), -1
+    near: NDArray[np.int64]              # circle the end lies near (slip tolerance), -1
     cluster: NDArray[np.int64]           # ends within the join tolerance share a cluster
     partner: NDArray[np.int64]           # the end linked to, -1
     link: NDArray[np.int8]               # a :class:`Link`
@@ -301,10 +302,11 @@ def recognize_paths(d: Drawing, *, tol: Tolerances = Tolerances(),
     comp = _components(ends, len(S))
     relevant = _relevant_components(ends, arcs, comp)
     segs = np.flatnonzero(relevant[comp])
-    dropped, seg_dups = _duplicate_pieces(np.arange(len(S)), ends, S)
+    dropped, seg_dups = _duplicate_pieces(ends, S)
     branches = _link_all(segs, dropped, ends, arcs, comp, scene)
-    chains, strays, findings = _walk_all(segs, dropped, ends, arcs, comp, scene, d, keep)
-    findings.extend(_branch_findings(branches, ends, arcs, comp, scene, strays))
+    evidence = _Evidence(comp, ends, arcs, scene)
+    chains, strays, findings = _walk_all(segs, dropped, ends, arcs, evidence, scene, d, keep)
+    findings.extend(_branch_findings(branches, ends, comp, evidence, scene, strays))
     if strays.count:
         findings.append(_stray_note(strays))
     findings[:0] = _duplicate_note(d, duplicates, seg_dups)
@@ -359,22 +361,16 @@ def _dedup_circles(d: Drawing, tol: Tolerances) -> tuple[NDArray[np.int64], list
     return alias, repeats
 
 
-def _duplicate_pieces(segs: NDArray[np.int64], ends: PathEnds, S: Segments
-                      ) -> tuple[NDArray[np.bool_], list[tuple[int, int]]]:
-    """Pieces that repeat another (same clusters, same sweep): dropped, with (copy, kept) pairs."""
-    seen: dict[tuple[int, int, float], int] = {}
-    dropped = np.zeros(len(S), dtype=bool)
-    repeats: list[tuple[int, int]] = []
-    for s in segs.tolist():
-        ca, cb = int(ends.cluster[2 * s]), int(ends.cluster[2 * s + 1])
-        sw = round(float(S.sweep[s]), 6)
-        key = (ca, cb, sw) if ca <= cb else (cb, ca, -sw)
-        if key in seen:
-            dropped[s] = True
-            repeats.append((s, seen[key]))
-        else:
-            seen[key] = s
-    return dropped, repeats
+def _duplicate_pieces(ends: PathEnds, S: Segments) -> tuple[NDArray[np.bool_], list[tuple[int, int]]]:
+    """Pieces that repeat an earlier one (same clusters, same sweep): dropped, with (copy, kept) pairs."""
+    ca, cb = ends.cluster[0::2], ends.cluster[1::2]
+    sw = np.round(S.sweep, 6)
+    flip = ca > cb
+    key = np.column_stack([np.where(flip, cb, ca), np.where(flip, ca, cb), np.where(flip, -sw, sw) + 0.0])
+    _, first, inverse = np.unique(key, axis=0, return_index=True, return_inverse=True)
+    kept = first[inverse.reshape(-1)]
+    dropped = kept != np.arange(len(S))
+    return dropped, [(int(s), int(kept[s])) for s in np.flatnonzero(dropped)]
 
 
 def _duplicate_note(d: Drawing, circles: list[tuple[int, int]], pieces: list[tuple[int, int]]) -> list[Finding]:
@@ -424,37 +420,38 @@ def _end_points(scene: _Scene) -> PathEnds:
         T[2 * a] = -sg * np.column_stack([-r0[:, 1], r0[:, 0]]) / rr
         T[2 * a + 1] = sg * np.column_stack([-r1[:, 1], r1[:, 0]]) / rr
     m = 2 * n
-    ends = PathEnds(P, T, np.full(m, -1, np.int64), np.arange(m), np.full(m, -1, np.int64),
-                    np.zeros(m, np.int8), np.full(m, -1, np.int64))
-    ends.circle = _attach(P, scene, scene.tol.attach)
-    return ends
+    on, near = _attach(P, scene, (scene.tol.attach, max(scene.tol.slip, scene.tol.attach)))
+    return PathEnds(P, T, on, near, np.arange(m),
+                    np.full(m, -1, np.int64), np.zeros(m, np.int8), np.full(m, -1, np.int64))
 
 
-def _attach(P: NDArray[np.float64], scene: _Scene, frac: float) -> NDArray[np.int64]:
-    """For each point, the nearest circle it lies on within ``frac`` of the radius, or -1.
+def _attach(P: NDArray[np.float64], scene: _Scene, fracs: tuple[float, ...]) -> list[NDArray[np.int64]]:
+    """For each point and each fraction, the circle it lies on within that fraction of the
+    radius (the one it misses least), or -1; one spatial query for all fractions.
 
     A back idler may be drawn at its outside diameter: a point may also lie the belt's
     height outside its circle.
     """
     cx, cy, cr, h = scene.cx, scene.cy, scene.cr, scene.height
-    out = np.full(len(P), -1, dtype=np.int64)
+    outs = [np.full(len(P), -1, dtype=np.int64) for _ in fracs]
     if not len(P):
-        return out
-    reach = cr * (1 + frac) + h
+        return outs
+    reach = cr * (1 + max(fracs)) + h
     tree = shapely.STRtree(shapely.box(cx - reach, cy - reach, cx + reach, cy + reach))
-    qi, qc = tree.query(shapely.points(P))
-    if not qi.size:
-        return out
-    dist = np.hypot(P[qi, 0] - cx[qc], P[qi, 1] - cy[qc])
-    miss = np.minimum(np.abs(dist - cr[qc]), np.abs(dist - cr[qc] - h))
-    ok = miss <= frac * cr[qc]
-    qi, qc, miss = qi[ok], qc[ok], miss[ok]
-    order = np.lexsort((cr[qc], miss, qi))        # per point: smallest miss first
-    qi, qc = qi[order], qc[order]
-    first = np.ones(qi.size, dtype=bool)
-    first[1:] = qi[1:] != qi[:-1]
-    out[qi[first]] = qc[first]
-    return out
+    qi0, qc0 = tree.query(shapely.points(P))
+    if not qi0.size:
+        return outs
+    dist = np.hypot(P[qi0, 0] - cx[qc0], P[qi0, 1] - cy[qc0])
+    miss0 = np.minimum(np.abs(dist - cr[qc0]), np.abs(dist - cr[qc0] - h))
+    for out, frac in zip(outs, fracs):
+        ok = miss0 <= frac * cr[qc0]
+        qi, qc, miss = qi0[ok], qc0[ok], miss0[ok]
+        order = np.lexsort((cr[qc], miss, qi))        # per point: smallest miss first
+        qi, qc = qi[order], qc[order]
+        first = np.ones(qi.size, dtype=bool)
+        first[1:] = qi[1:] != qi[:-1]
+        out[qi[first]] = qc[first]
+    return outs
 
 
 def _arcs_on_circles(scene: _Scene, ends: PathEnds) -> _Arcs:
@@ -473,8 +470,10 @@ def _arcs_on_circles(scene: _Scene, ends: PathEnds) -> _Arcs:
         if cands:
             _arc_on(k, cands, scene, arcs)
     off = a[arcs.circle[a] < 0]
+    off = off[(ends.circle[2 * off] >= 0) | (ends.circle[2 * off + 1] >= 0)]    # one end on a circle
     if off.size:
-        reach = scene.tol.slip * float(scene.cr.max())
+        slip = min(scene.tol.slip, 0.5)
+        reach = slip * S.r[off] / (1.0 - slip)         # slip * r_c, with r_c <= r_arc / (1 - slip)
         cands = ctree.query_ball_point(np.column_stack([S.cx[off], S.cy[off]]), r=reach)
         for k, cs in zip(off.tolist(), cands):
             c, slipped = _slipped_circle(k, cs, scene, ends)
@@ -578,21 +577,17 @@ def _link_all(segs: NDArray[np.int64], dropped: NDArray[np.bool_], ends: PathEnd
     _link_gaps([e for e in open_ends if ends.partner[e] < 0], live, ends, comp, scene)
     still = [e for e in open_ends if ends.partner[e] < 0]
     if still:
-        _link_round_circles(still, _attach(ends.point[still], scene, scene.tol.slip), ends, arcs, scene,
-                            circle_of=dict(zip(still, range(len(still)))))
+        _link_round_circles(still, ends.near, ends, arcs, scene)     # a drafter's slip
     return branches
 
 
 def _link_round_circles(open_ends: list[int], circle: NDArray[np.int64], ends: PathEnds, arcs: _Arcs,
-                        scene: _Scene, circle_of: dict[int, int] | None = None) -> None:
-    """Pair open ends lying on one circle: the belt goes round it from one to the other.
-
-    ``circle`` holds each end's circle, indexed by the end itself or, with ``circle_of``,
-    by ``circle_of[end]``. Radial pieces (centre marks, leaders) are left out.
-    """
+                        scene: _Scene) -> None:
+    """Pair open ends lying on one circle (``circle[end]``): the belt goes round it from one
+    to the other. Radial pieces (centre marks, leaders) are left out."""
     by_circle: dict[int, list[int]] = defaultdict(list)
     for e in open_ends:
-        c = int(circle[e if circle_of is None else circle_of[e]])
+        c = int(circle[e])
         if c < 0:
             continue
         rv = ends.point[e] - (scene.cx[c], scene.cy[c])
@@ -712,7 +707,7 @@ def _walk(s0: int, fwd0: bool, ends: PathEnds, limit: int) -> _Walk:
 
 
 def _walk_all(segs: NDArray[np.int64], dropped: NDArray[np.bool_], ends: PathEnds, arcs: _Arcs,
-              comp: NDArray[np.int64], scene: _Scene, d: Drawing, keep: NDArray[np.int64]
+              evidence: "_Evidence", scene: _Scene, d: Drawing, keep: NDArray[np.int64]
               ) -> tuple[list[Chain], _Strays, list[Finding]]:
     """Walk every chain once: closed ones become loops (or strays), open ones path errors (or strays)."""
     visited = dropped.copy()
@@ -731,7 +726,7 @@ def _walk_all(segs: NDArray[np.int64], dropped: NDArray[np.bool_], ends: PathEnd
         for s, _ in w.pieces:
             visited[s] = True
         if not w.closed:
-            findings.extend(_open_path(w, ends, arcs, comp, scene, strays))
+            findings.extend(_open_path(w, ends, arcs, evidence, scene, strays))
             continue
         ch = _closed_chain(w, ends, arcs, scene, d, keep, strays)
         if ch is None:
@@ -751,7 +746,7 @@ def _touched(pieces: list[int], ends: PathEnds, arcs: _Arcs) -> set[int]:
     return out
 
 
-def _open_path(w: _Walk, ends: PathEnds, arcs: _Arcs, comp: NDArray[np.int64], scene: _Scene,
+def _open_path(w: _Walk, ends: PathEnds, arcs: _Arcs, evidence: "_Evidence", scene: _Scene,
                strays: _Strays) -> list[Finding]:
     """A ``path-open`` error for an open chain touching two or more circles that is meant as
     a belt; such a chain that is not is counted as a stray."""
@@ -760,7 +755,7 @@ def _open_path(w: _Walk, ends: PathEnds, arcs: _Arcs, comp: NDArray[np.int64], s
     if w.open_end < 0 or len(touched) < 2:
         return []
     e = w.open_end
-    if not _component_meant(int(comp[e // 2]), comp, ends, arcs, scene):
+    if not evidence.meant(evidence.component(e // 2)):
         strays.add(ends.xy(e))
         return []
     S = scene.S
@@ -771,14 +766,14 @@ def _open_path(w: _Walk, ends: PathEnds, arcs: _Arcs, comp: NDArray[np.int64], s
                     at=ends.xy(e), data={"circles": sorted(touched)})]
 
 
-def _branch_findings(branches: list[int], ends: PathEnds, arcs: _Arcs, comp: NDArray[np.int64],
+def _branch_findings(branches: list[int], ends: PathEnds, comp: NDArray[np.int64], evidence: "_Evidence",
                      scene: _Scene, strays: _Strays) -> list[Finding]:
     """A ``path-branch`` error where three or more ends of a chain meant as a belt meet."""
     out = []
     S = scene.S
     for e in branches:
         s = e // 2
-        if not _component_meant(int(comp[s]), comp, ends, arcs, scene):
+        if not evidence.meant(int(comp[s])):
             strays.add(ends.xy(e))
             continue
         out.append(Finding(
@@ -830,28 +825,43 @@ def _on_belt_layer(layers: list[str], scene: _Scene) -> bool:
     return bool(layers) and layer_matches(Counter(layers).most_common(1)[0][0], scene.belt_layers)
 
 
-def _component_meant(k: int, comp: NDArray[np.int64], ends: PathEnds, arcs: _Arcs, scene: _Scene) -> bool:
-    """Whether the pieces of component ``k`` are evidently meant as a belt: on a belt layer,
-    touching a named circle, or mostly arcs on circles and lines tangent at both ends."""
-    S = scene.S
-    pieces = np.flatnonzero(comp == k)
-    if _on_belt_layer([S.layer[s] for s in pieces.tolist()], scene):
-        return True
-    touched = _touched(pieces.tolist(), ends, arcs)
-    if any(scene.named[c] for c in touched):
-        return True
-    near = _attach(ends.point[np.concatenate([2 * pieces, 2 * pieces + 1])], scene, scene.tol.slip)
-    near_start, near_end = near[:pieces.size], near[pieces.size:]
-    good = 0
-    for i, s in enumerate(pieces.tolist()):
-        if arcs.circle[s] >= 0:
-            good += 1
-            continue
-        ca, cb = int(near_start[i]), int(near_end[i])
-        if S.sweep[s] == 0.0 and ca >= 0 and cb >= 0 and ca != cb:
-            a, b = ends.point[2 * s], ends.point[2 * s + 1]
-            good += _tangent_at(a, b, ca, float(scene.cr[ca]), scene) and _tangent_at(a, b, cb, float(scene.cr[cb]), scene)
-    return good >= 2 and good >= BELT_LIKE_SHARE * pieces.size
+class _Evidence:
+    """Whether each component of pieces is evidently meant as a belt, decided once per component."""
+
+    def __init__(self, comp: NDArray[np.int64], ends: PathEnds, arcs: _Arcs, scene: _Scene) -> None:
+        self._order = np.argsort(comp, kind="stable")
+        self._sorted = comp[self._order]
+        self._ends, self._arcs, self._scene, self._comp = ends, arcs, scene, comp
+        self._verdict: dict[int, bool] = {}
+
+    def component(self, piece: int) -> int:
+        return int(self._comp[piece])
+
+    def meant(self, k: int) -> bool:
+        if k not in self._verdict:
+            lo, hi = np.searchsorted(self._sorted, [k, k + 1])
+            self._verdict[k] = self._decide(self._order[lo:hi])
+        return self._verdict[k]
+
+    def _decide(self, pieces: NDArray[np.int64]) -> bool:
+        """On a belt layer, touching a named circle, or mostly arcs on circles and lines
+        tangent to circles at both ends."""
+        ends, arcs, scene = self._ends, self._arcs, self._scene
+        S = scene.S
+        if _on_belt_layer([S.layer[s] for s in pieces.tolist()], scene):
+            return True
+        if any(scene.named[c] for c in _touched(pieces.tolist(), ends, arcs)):
+            return True
+        good = 0
+        for s in pieces.tolist():
+            ca, cb = int(ends.near[2 * s]), int(ends.near[2 * s + 1])
+            if arcs.circle[s] >= 0:
+                good += 1
+            elif S.sweep[s] == 0.0 and ca >= 0 and cb >= 0 and ca != cb:
+                a, b = ends.point[2 * s], ends.point[2 * s + 1]
+                good += _tangent_at(a, b, ca, float(scene.cr[ca]), scene) and _tangent_at(
+                    a, b, cb, float(scene.cr[cb]), scene)
+        return good >= 2 and good >= BELT_LIKE_SHARE * pieces.size
 
 
 def _chain_meant(ch: Chain, ends: PathEnds, scene: _Scene) -> bool:

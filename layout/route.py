@@ -26,7 +26,7 @@ from physics.model import Belt, Drive, Loop, Pulley, Role
 
 from .errors import FatalInput, SpecError
 from .loops import LoopContext, LoopRecord, PulleyRecord, ToMetres, apply_travel, build_loops, height_du
-from .naming import Names, name_pulleys, named_circles
+from .naming import Names, name_pulleys, named_circles, texts_in_circles
 from .quantity import length_factor
 from .read import Drawing
 from .recognize import Recognition, Tolerances, recognize_paths
@@ -73,10 +73,11 @@ def build_model(d: Drawing, spec: Spec) -> Model:
     problems: list[str] = []
     units, factor = _units(d, spec, findings)
     tol = Tolerances.from_spec(spec.tolerances)
+    hits = texts_in_circles(d)
     rec: Recognition = recognize_paths(d, tol=tol, belt_layers=spec.belt_layers,
-                                       belt_height=height_du(spec.belt, factor), named=named_circles(d, spec))
+                                       belt_height=height_du(spec.belt, factor), named=named_circles(d, spec, hits))
     findings.extend(rec.findings)
-    names = name_pulleys(d, spec, rec, factor, tol, findings, problems)
+    names = name_pulleys(d, spec, rec, hits, factor, tol, findings, problems)
     if problems:
         raise SpecError(problems)
     records, id_of_circle = _records(names, spec)
