@@ -10,7 +10,9 @@ from __future__ import annotations
 import math
 import re
 import tomllib
+from collections.abc import Callable
 from dataclasses import dataclass, field, fields
+from functools import partial
 from pathlib import Path
 from typing import Any
 
@@ -44,7 +46,7 @@ PULLEY_KEYS: dict[str, str] = {
 TOP_KEYS = {"units", "belt_layers", "gravity", "service_factor", "keep_out_layers", "clearance",
             "belt", "pulley", "route", "tolerances", "grip_margin", "modes", "resonance_margin",
             "near_critical", "sag_limit", "span_ends"}
-TOLERANCE_KEYS = {"join", "attach", "tangent_deg", "tangent_offset"}
+TOLERANCE_KEYS = {"join", "attach", "slip", "tangent_deg", "tangent_offset"}
 ROUTE_KEYS = {"pulleys", "back", "crossed"}
 
 _ID = re.compile(r"^[A-Za-z][A-Za-z0-9_.\-]*$")
@@ -155,88 +157,142 @@ def spec_path_for(drawing: str | Path) -> Path:
 # --------------------------------------------------------------------------- values
 
 
+class _BadValue(Exception):
+    """A value that does not fit its kind: what was expected, and the value as read."""
+
+    def __init__(self, expected: str, raw: Any) -> None:
+        super().__init__(expected)
+        self.expected = expected
+        self.raw = raw
+
+
+def _is_number(v: Any) -> bool:
+    """A TOML integer or float (``True`` and ``False`` are not numbers here)."""
+    return isinstance(v, (int, float)) and not isinstance(v, bool)
+
+
+def _name(raw: Any, from_label: bool) -> str:
+    if not isinstance(raw, str) or not raw.strip():
+        raise _BadValue("expected a name, e.g. 'SPA'", raw)
+    return raw.strip()
+
+
+def _plain(raw: Any, from_label: bool, read: Callable[[str], float], expected: str) -> float:
+    """A number without a unit; a label's text is read with ``read`` first."""
+    if isinstance(raw, str) and from_label:
+        try:
+            raw = read(raw)
+        except ValueError:
+            raise _BadValue(expected, raw) from None
+    if not _is_number(raw):
+        raise _BadValue(f"{expected} (no unit)", raw)
+    return raw
+
+
+def _number(raw: Any, from_label: bool) -> float:
+    raw = _plain(raw, from_label, float, "expected a plain number")
+    if not math.isfinite(raw) or raw <= 0:
+        raise _BadValue("expected a number greater than 0", raw)
+    return float(raw)
+
+
+def _count(raw: Any, from_label: bool) -> int:
+    raw = _plain(raw, from_label, int, "expected a whole number")
+    if not math.isfinite(raw) or int(raw) != raw or raw < 1:
+        raise _BadValue("expected a whole number of at least 1", raw)
+    return int(raw)
+
+
+def _one_of(options: tuple[str, ...], expected: str) -> Callable[[Any, bool], str]:
+    """A converter to one of ``options``, matched without regard to case or surrounding blanks."""
+
+    def convert(raw: Any, from_label: bool) -> str:
+        if not isinstance(raw, str) or raw.strip().lower() not in options:
+            raise _BadValue(expected, raw)
+        return raw.strip().lower()
+
+    return convert
+
+
+def _point(raw: Any, from_label: bool) -> tuple[float, float]:
+    if not isinstance(raw, (list, tuple)) or len(raw) != 2 or not all(_is_number(v) for v in raw):
+        raise _BadValue("expected a point [x, y] in drawing units", raw)
+    return (float(raw[0]), float(raw[1]))
+
+
+def _speed_range(raw: Any, from_label: bool) -> tuple[float, float]:
+    if not isinstance(raw, (list, tuple)) or len(raw) != 2:
+        raise _BadValue("expected two speeds, e.g. [\"700 rpm\", \"1800 rpm\"]", raw)
+    lo = parse_quantity(raw[0], "rotational_speed")
+    hi = parse_quantity(raw[1], "rotational_speed")
+    if not 0 <= lo <= hi:
+        raise _BadValue("expected a low and a high speed, low <= high", raw)
+    return (lo, hi)
+
+
+def _orders(raw: Any, from_label: bool) -> tuple[float, ...]:
+    items = raw if isinstance(raw, (list, tuple)) else [raw]
+    out = []
+    for v in items:
+        if isinstance(v, str) and from_label:
+            v = float(v)        # a ValueError here is reported by _value
+        if not _is_number(v) or not v > 0:
+            raise _BadValue("expected positive numbers, e.g. [1, 2]", raw)
+        out.append(float(v))
+    if not out:
+        raise _BadValue("expected at least one order, e.g. [1]", raw)
+    return tuple(out)
+
+
+def _length_list(raw: Any, from_label: bool) -> tuple[float, ...]:
+    if not isinstance(raw, (list, tuple)) or not raw:
+        raise _BadValue("expected a list of lengths, e.g. [\"1600 mm\", \"1700 mm\"]", raw)
+    vals = tuple(parse_quantity(v, "length") for v in raw)
+    if any(v <= 0 for v in vals):
+        raise _BadValue("expected lengths greater than 0", raw)
+    return vals
+
+
+_POSITIVE_KINDS = ("length", "mass_per_length", "bending_stiffness")
+
+
+def _quantity(kind: str, raw: Any) -> float:
+    """A quantity of a :mod:`layout.quantity` kind, in SI."""
+    value = parse_quantity(raw, kind)
+    if kind in _POSITIVE_KINDS and value <= 0:
+        raise _BadValue("expected a value greater than 0", raw)
+    if kind == "force" and value < 0:
+        raise _BadValue("expected a force of at least 0", raw)
+    return value
+
+
+# kind -> converter(raw, from_label); any other kind is a quantity kind (_quantity).
+_CONVERTERS: dict[str, Callable[[Any, bool], Any]] = {
+    "name": _name,
+    "number+": _number,
+    "count": _count,
+    "role": _one_of(ROLES, f"expected one of {', '.join(ROLES)}"),
+    "direction": _one_of(DIRECTIONS, "expected 'ccw' (counter-clockwise) or 'cw' (clockwise)"),
+    "tensioning": _one_of(TENSIONING, "expected 'fixed' (fixed centres) or 'constant'"),
+    "point": _point,
+    "speed_range": _speed_range,
+    "orders": _orders,
+    "length_list": _length_list,
+}
+
+
 def _value(kind: str, raw: Any, where: str, problems: list[str], *, from_label: bool = False) -> Any:
     """Convert ``raw`` of ``kind``; on failure add one line to ``problems`` and return None."""
-
-    def bad(expected: str) -> None:
-        problems.append(f"{where} = {raw!r}: {expected}")
-
+    convert = _CONVERTERS.get(kind)
     try:
-        if kind == "name":
-            if not isinstance(raw, str) or not raw.strip():
-                return bad("expected a name, e.g. 'SPA'")
-            return raw.strip()
-        if kind in ("number+", "count"):
-            if isinstance(raw, str) and from_label:
-                try:
-                    raw = float(raw) if kind == "number+" else int(raw)
-                except ValueError:
-                    return bad("expected a plain number" if kind == "number+" else "expected a whole number")
-            if isinstance(raw, bool) or not isinstance(raw, (int, float)):
-                return bad("expected a plain number (no unit)" if kind == "number+" else
-                           "expected a whole number (no unit)")
-            if kind == "count":
-                if not math.isfinite(raw) or int(raw) != raw or raw < 1:
-                    return bad("expected a whole number of at least 1")
-                return int(raw)
-            if not math.isfinite(raw) or raw <= 0:
-                return bad("expected a number greater than 0")
-            return float(raw)
-        if kind == "role":
-            if not isinstance(raw, str) or raw.strip().lower() not in ROLES:
-                return bad(f"expected one of {', '.join(ROLES)}")
-            return raw.strip().lower()
-        if kind == "direction":
-            if not isinstance(raw, str) or raw.strip().lower() not in DIRECTIONS:
-                return bad("expected 'ccw' (counter-clockwise) or 'cw' (clockwise)")
-            return raw.strip().lower()
-        if kind == "tensioning":
-            if not isinstance(raw, str) or raw.strip().lower() not in TENSIONING:
-                return bad("expected 'fixed' (fixed centres) or 'constant'")
-            return raw.strip().lower()
-        if kind == "point":
-            if (not isinstance(raw, (list, tuple)) or len(raw) != 2
-                    or not all(isinstance(v, (int, float)) and not isinstance(v, bool) for v in raw)):
-                return bad("expected a point [x, y] in drawing units")
-            return (float(raw[0]), float(raw[1]))
-        if kind == "speed_range":
-            if not isinstance(raw, (list, tuple)) or len(raw) != 2:
-                return bad("expected two speeds, e.g. [\"700 rpm\", \"1800 rpm\"]")
-            lo = parse_quantity(raw[0], "rotational_speed")
-            hi = parse_quantity(raw[1], "rotational_speed")
-            if not 0 <= lo <= hi:
-                return bad("expected a low and a high speed, low <= high")
-            return (lo, hi)
-        if kind == "orders":
-            items = raw if isinstance(raw, (list, tuple)) else [raw]
-            out = []
-            for v in items:
-                if isinstance(v, str) and from_label:
-                    v = float(v)
-                if isinstance(v, bool) or not isinstance(v, (int, float)) or not v > 0:
-                    return bad("expected positive numbers, e.g. [1, 2]")
-                out.append(float(v))
-            if not out:
-                return bad("expected at least one order, e.g. [1]")
-            return tuple(out)
-        if kind == "length_list":
-            if not isinstance(raw, (list, tuple)) or not raw:
-                return bad("expected a list of lengths, e.g. [\"1600 mm\", \"1700 mm\"]")
-            vals = tuple(parse_quantity(v, "length") for v in raw)
-            if any(v <= 0 for v in vals):
-                return bad("expected lengths greater than 0")
-            return vals
-        value = parse_quantity(raw, kind)
-        if kind in ("length", "mass_per_length", "bending_stiffness") and value <= 0:
-            return bad("expected a value greater than 0")
-        if kind == "force" and value < 0:
-            return bad("expected a force of at least 0")
-        return value
+        return _quantity(kind, raw) if convert is None else convert(raw, from_label)
+    except _BadValue as bad:
+        problems.append(f"{where} = {bad.raw!r}: {bad.expected}")
     except QuantityError as err:
         problems.append(f"{where}: {err}")
-        return None
     except (TypeError, ValueError):
-        return bad(f"expected a {kind.replace('_', ' ')}")
+        problems.append(f"{where} = {raw!r}: expected a {kind.replace('_', ' ')}")
+    return None
 
 
 def pulley_values(items: dict[str, Any], where: str, problems: list[str], *,
@@ -349,79 +405,108 @@ def _tables(data: dict[str, Any], key: str, name: str, problems: list[str]
     return out
 
 
-def parse_spec(data: dict[str, Any], name: str) -> Spec:
-    """Validate a parsed TOML document; ``name`` is how messages refer to the file."""
-    problems: list[str] = []
-    kw: dict[str, Any] = {"path": name}
+# --------------------------------------------------------------------------- top-level settings
+# Each reader takes (raw, where, problems) and returns the value, or None after adding a problem.
+
+
+def _units(raw: Any, where: str, problems: list[str]) -> str | None:
+    try:
+        if not isinstance(raw, str):
+            raise ValueError
+        length_factor(raw)
+    except (ValueError, QuantityError):
+        problems.append(f"{where} = {raw!r}: expected a drawing unit: mm, cm, m, in or ft")
+        return None
+    unit = raw.strip().lower()
+    return {"inch": "in", "inches": "in"}.get(unit, unit)
+
+
+def _gravity(raw: Any, where: str, problems: list[str]) -> tuple[float, float] | None:
+    if (isinstance(raw, list) and len(raw) == 2 and all(_is_number(v) for v in raw)
+            and math.hypot(raw[0], raw[1]) > 0):
+        n = math.hypot(raw[0], raw[1])
+        return (raw[0] / n, raw[1] / n)
+    problems.append(f"{where} = {raw!r}: expected a direction [x, y] in the drawing plane, "
+                    f"e.g. [0, -1]")
+    return None
+
+
+def _fraction(raw: Any, where: str, problems: list[str]) -> float | None:
+    v = _value("number+", raw, where, problems)
+    if v is not None and v > 1:
+        problems.append(f"{where} = {v}: expected a fraction in (0, 1]")
+        return None
+    return v
+
+
+def _span_ends(raw: Any, where: str, problems: list[str]) -> str | None:
+    if raw not in ("pinned", "clamped"):
+        problems.append(f"{where} = {raw!r}: expected 'pinned' or 'clamped'")
+        return None
+    return raw
+
+
+def _tolerances(raw: Any, where: str, problems: list[str]) -> dict[str, float] | None:
+    if not isinstance(raw, dict):
+        problems.append(f"{where}: expected a table")
+        return None
+    vals = {}
+    for k, v in raw.items():
+        if k not in TOLERANCE_KEYS:
+            problems.append(f"{where}.{k}: unknown key; expected one of "
+                            f"{', '.join(sorted(TOLERANCE_KEYS))}")
+            continue
+        tol = _value("number+", v, f"{where}.{k}", problems)
+        if tol is not None:
+            vals[k] = tol
+    return vals
+
+
+# The top-level settings in the order their problems are reported.
+_SETTINGS: tuple[tuple[str, Callable[[Any, str, list[str]], Any]], ...] = (
+    ("units", _units),
+    ("belt_layers", _layers),
+    ("keep_out_layers", _layers),
+    ("clearance", partial(_value, "length")),
+    ("gravity", _gravity),
+    ("service_factor", partial(_value, "number+")),
+    ("grip_margin", _fraction),
+    ("resonance_margin", partial(_value, "number+")),
+    ("near_critical", _fraction),
+    ("sag_limit", partial(_value, "number+")),
+    ("modes", partial(_value, "count")),
+    ("span_ends", _span_ends),
+    ("tolerances", _tolerances),
+)
+
+
+def _settings(data: dict[str, Any], name: str, problems: list[str]) -> dict[str, Any]:
+    """The top-level keys other than the tables ``[belt]``, ``[pulley.*]`` and ``[route.*]``."""
     for key in data:
         if key not in TOP_KEYS:
             problems.append(f"{name}: unknown key {key!r}; expected one of {', '.join(sorted(TOP_KEYS))}")
-    if "units" in data:
-        u = data["units"]
-        try:
-            if not isinstance(u, str):
-                raise ValueError
-            length_factor(u)
-            kw["units"] = {"inch": "in", "inches": "in"}.get(u.strip().lower(), u.strip().lower())
-        except (ValueError, QuantityError):
-            problems.append(f"{name}: units = {u!r}: expected a drawing unit: mm, cm, m, in or ft")
-    if "belt_layers" in data:
-        kw["belt_layers"] = _layers(data["belt_layers"], f"{name}: belt_layers", problems)
-    if "keep_out_layers" in data:
-        kw["keep_out_layers"] = _layers(data["keep_out_layers"], f"{name}: keep_out_layers", problems)
-    if "clearance" in data:
-        v = _value("length", data["clearance"], f"{name}: clearance", problems)
-        if v is not None:
-            kw["clearance"] = v
-    if "gravity" in data:
-        g = data["gravity"]
-        if (isinstance(g, list) and len(g) == 2 and all(isinstance(v, (int, float)) and not isinstance(v, bool) for v in g)
-                and math.hypot(g[0], g[1]) > 0):
-            n = math.hypot(g[0], g[1])
-            kw["gravity"] = (g[0] / n, g[1] / n)
-        else:
-            problems.append(f"{name}: gravity = {g!r}: expected a direction [x, y] in the drawing plane, "
-                            f"e.g. [0, -1]")
-    for key in ("service_factor", "grip_margin", "resonance_margin", "near_critical", "sag_limit"):
+    kw: dict[str, Any] = {}
+    for key, read in _SETTINGS:
         if key in data:
-            v = _value("number+", data[key], f"{name}: {key}", problems)
+            v = read(data[key], f"{name}: {key}", problems)
             if v is not None:
-                if key in ("grip_margin", "near_critical") and v > 1:
-                    problems.append(f"{name}: {key} = {v}: expected a fraction in (0, 1]")
-                else:
-                    kw[key] = v
-    if "modes" in data:
-        v = _value("count", data["modes"], f"{name}: modes", problems)
-        if v is not None:
-            kw["modes"] = v
-    if "span_ends" in data:
-        e = data["span_ends"]
-        if e not in ("pinned", "clamped"):
-            problems.append(f"{name}: span_ends = {e!r}: expected 'pinned' or 'clamped'")
-        else:
-            kw["span_ends"] = e
-    if "tolerances" in data:
-        tol = data["tolerances"]
-        if not isinstance(tol, dict):
-            problems.append(f"{name}: tolerances: expected a table")
-        else:
-            vals = {}
-            for k, raw in tol.items():
-                if k not in TOLERANCE_KEYS:
-                    problems.append(f"{name}: tolerances.{k}: unknown key; expected one of "
-                                    f"{', '.join(sorted(TOLERANCE_KEYS))}")
-                    continue
-                v = _value("number+", raw, f"{name}: tolerances.{k}", problems)
-                if v is not None:
-                    vals[k] = v
-            kw["tolerances"] = vals
+                kw[key] = v
+    return kw
+
+
+# --------------------------------------------------------------------------- tables
+
+
+def _belts(data: dict[str, Any], name: str, problems: list[str]
+           ) -> tuple[BeltSpec, dict[str, BeltSpec]]:
+    """``[belt]`` and its per-loop sub-tables ``[belt.LOOP]`` (keyed by lower-case loop id)."""
     belt = data.get("belt", {})
     if not isinstance(belt, dict):
         problems.append(f"{name}: belt: expected a table [belt]")
         belt = {}
     flat = {k: v for k, v in belt.items() if not isinstance(v, dict)}
     subs = {k: v for k, v in belt.items() if isinstance(v, dict)}
-    kw["belt"] = _belt(flat, f"{name}: belt", problems)
+    common = _belt(flat, f"{name}: belt", problems)
     _case_unique(subs, f"{name}: belt", problems)
     loop_belts = {}
     for lid, table in subs.items():
@@ -429,54 +514,93 @@ def parse_spec(data: dict[str, Any], name: str) -> Spec:
             problems.append(f"{name}: [belt.{lid}]: a loop id may not be a belt key ({lid!r})")
             continue
         loop_belts[lid.lower()] = _belt(table, f"{name}: belt.{lid}", problems)
-    kw["loop_belts"] = loop_belts
+    return common, loop_belts
+
+
+def _pulleys(data: dict[str, Any], name: str, problems: list[str]) -> dict[str, PulleySpec]:
+    """``[pulley.ID]`` tables, keyed by lower-case pulley id."""
     ps: dict[str, PulleySpec] = {}
     for pid, table, where in _tables(data, "pulley", name, problems):
         vals = pulley_values(table, where, problems)
         _check_pulley(vals, where, problems)
         ps[pid.lower()] = PulleySpec(id=pid, source=where, **vals)
-    kw["pulleys"] = ps
+    return ps
+
+
+def _spans_of(seq: list[str]) -> dict[str, tuple[str, str]]:
+    """Spans of consecutive pulleys (last to first too) by ``"from-to"`` in lower case; first wins."""
+    spans: dict[str, tuple[str, str]] = {}
+    for a, b in zip(seq, seq[1:] + seq[:1]):
+        spans.setdefault(f"{a.lower()}-{b.lower()}", (a, b))
+    return spans
+
+
+def _crossed(raw: Any, seq: list[str], where: str, problems: list[str]) -> list[tuple[str, str]]:
+    """A route's ``crossed = ["FROM-TO", ...]``, each a span of consecutive pulleys of ``seq``."""
+    if not isinstance(raw, list):
+        problems.append(f"{where}.crossed: expected a list of spans \"FROM-TO\"")
+        return []
+    spans = _spans_of(seq)
+    crossed = []
+    for c in raw:
+        span = spans.get(c.lower()) if isinstance(c, str) else None
+        if span is None:
+            problems.append(f"{where}.crossed: {c!r} is not a span FROM-TO of consecutive pulleys "
+                            f"of this route")
+        else:
+            crossed.append(span)
+    return crossed
+
+
+def _route(lid: str, table: dict[str, Any], where: str, problems: list[str]) -> RouteSpec | None:
+    """One ``[route.LOOP]`` table; None when it names no usable pulleys."""
+    for k in table:
+        if k not in ROUTE_KEYS:
+            problems.append(f"{where}: unknown key {k!r}; expected pulleys, back, crossed")
+    seq = table.get("pulleys")
+    if not isinstance(seq, list) or len(seq) < 2 or not all(isinstance(v, str) for v in seq):
+        problems.append(f"{where}.pulleys: expected at least two pulley ids in travel order")
+        return None
+    back = table.get("back", [])
+    if not isinstance(back, list) or not all(isinstance(v, str) for v in back):
+        problems.append(f"{where}.back: expected a list of pulley ids")
+        back = []
+    crossed = _crossed(table.get("crossed", []), seq, where, problems)
+    lower_seq = [v.lower() for v in seq]
+    for b in back:
+        if b.lower() not in lower_seq:
+            problems.append(f"{where}.back: {b!r} is not in the route's pulleys")
+    if lid.lower() in BELT_KEYS:
+        problems.append(f"{where}: a loop id may not be a belt key ({lid!r})")
+    return RouteSpec(lid, tuple(seq), tuple(back), tuple(crossed))
+
+
+def _routes(data: dict[str, Any], name: str, problems: list[str]) -> dict[str, RouteSpec]:
+    """``[route.LOOP]`` tables, keyed by lower-case loop id."""
     rs: dict[str, RouteSpec] = {}
     for lid, table, where in _tables(data, "route", name, problems):
-        for k in table:
-            if k not in ROUTE_KEYS:
-                problems.append(f"{where}: unknown key {k!r}; expected pulleys, back, crossed")
-        seq = table.get("pulleys")
-        if not isinstance(seq, list) or len(seq) < 2 or not all(isinstance(v, str) for v in seq):
-            problems.append(f"{where}.pulleys: expected at least two pulley ids in travel order")
-            continue
-        back = table.get("back", [])
-        if not isinstance(back, list) or not all(isinstance(v, str) for v in back):
-            problems.append(f"{where}.back: expected a list of pulley ids")
-            back = []
-        crossed_raw = table.get("crossed", [])
-        crossed: list[tuple[str, str]] = []
-        if not isinstance(crossed_raw, list):
-            problems.append(f"{where}.crossed: expected a list of spans \"FROM-TO\"")
-            crossed_raw = []
-        lower_seq = [v.lower() for v in seq]
-        for c in crossed_raw:
-            ok = False
-            if isinstance(c, str):
-                for i, a in enumerate(lower_seq):
-                    b = lower_seq[(i + 1) % len(seq)]
-                    if c.lower() == f"{a}-{b}":
-                        crossed.append((seq[i], seq[(i + 1) % len(seq)]))
-                        ok = True
-                        break
-            if not ok:
-                problems.append(f"{where}.crossed: {c!r} is not a span FROM-TO of consecutive pulleys "
-                                f"of this route")
-        for b in back:
-            if b.lower() not in lower_seq:
-                problems.append(f"{where}.back: {b!r} is not in the route's pulleys")
-        if lid.lower() in BELT_KEYS:
-            problems.append(f"{where}: a loop id may not be a belt key ({lid!r})")
-        rs[lid.lower()] = RouteSpec(lid, tuple(seq), tuple(back), tuple(crossed))
-    kw["routes"] = rs
+        route = _route(lid, table, where, problems)
+        if route is not None:
+            rs[lid.lower()] = route
+    return rs
+
+
+def parse_spec(data: dict[str, Any], name: str) -> Spec:
+    """Validate a parsed TOML document; ``name`` is how messages refer to the file.
+
+    Every problem is collected, in the order: unknown top-level keys, the settings (in the
+    order of ``_SETTINGS``), ``[belt]``, ``[pulley.*]``, ``[route.*]``; then all are raised
+    together as one :class:`~layout.errors.SpecError`.
+    """
+    problems: list[str] = []
+    settings = _settings(data, name, problems)
+    belt, loop_belts = _belts(data, name, problems)
+    pulleys = _pulleys(data, name, problems)
+    routes = _routes(data, name, problems)
     if problems:
         raise SpecError(problems)
-    return Spec(**kw)
+    return Spec(path=name, belt=belt, loop_belts=loop_belts, pulleys=pulleys, routes=routes,
+                **settings)
 
 
 def load_spec(path: str | Path) -> Spec:
