@@ -1,4 +1,4 @@
-"""The same drive read from every way of drawing it: acceptance of the foundation issue.
+"""The same drive read from every way of drawing it: one drive, many drawn forms, the same numbers.
 
 Reference values: Budynas & Nisbett, Shigley's Mechanical Engineering Design, 9th ed.,
 ch. 17, Eqs. 17-1 (open) and 17-2 (crossed) (from memory), via physics.geometry's closed
@@ -61,7 +61,7 @@ def test_two_pulley_drive_matches_closed_forms_in_every_drawn_form(tmp, form, cr
         assert wraps[0.05] == pytest.approx(ts, rel=1e-9)
         assert lp.crossed == [False, False]
     assert length == pytest.approx(L, rel=1e-9)
-    # both pulleys touched by the inside face, open or crossed (design: half-twist rule)
+    # both pulleys touched by the inside face, open or crossed (derived: each crossed span turns the belt over once, two half twists bring the inside face back)
     assert [s.value for s in lp.sides] == ["inside", "inside"]
 
 

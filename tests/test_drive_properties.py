@@ -35,7 +35,7 @@ def test_serpentine_with_backside_idler_and_tensioner(tmp):
     assert lp["tensioning"] == "tensioner"
     pulleys = {p["id"]: p for p in lp["pulleys"]}
     assert pulleys["TEN"]["side"] == "back" and pulleys["GUIDE"]["side"] == "back"
-    # the torque steps round the loop sum to zero: sum(Q_i / r_i) = 0 (design, "Mechanics")
+    # the torque steps round the loop sum to zero: sum(Q_i / r_i) = 0 (derived: the power balance sum Q_i w_i = 0 with w_i = v / r_i for a common belt speed v)
     steps = sum(p["torque_nm"] / (p["pitch_diameter_m"] / 2) for p in lp["pulleys"])
     assert steps == pytest.approx(0.0, abs=1e-9)
     # power balances

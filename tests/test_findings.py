@@ -64,7 +64,7 @@ def test_span_rotated_one_degree_is_not_tangent_at_its_place(tmp):
 
 
 def test_tiny_rotation_within_tolerance_is_accepted(tmp):
-    # tangency tolerance 0.05 deg (design, "Geometry rules"); rotating by 0.01 deg about the
+    # tangency tolerance 0.05 deg (layout.recognize.Tolerances, common practice); rotating by 0.01 deg about the
     # middle moves the ends by 0.04 mm, under 1e-3 * r = 0.05 mm
     path, _ = _spans_drawing(tmp, rotate_deg=0.01)
     assert not [f for f in check_drawing(path).findings if f.severity.value == "error"]

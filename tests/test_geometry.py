@@ -15,7 +15,8 @@ from physics import geometry as geo
 # book's flat-belt worked example (18 in and 6 in pulleys, 8 ft centres).
 OPEN_CASES = [
     (18.0, 6.0, 96.0, 3.016511, 3.266674, 230.0742, 5e-7, "Shigley ch. 17 flat-belt example"),
-    (400.0, 100.0, 500.0, 2.53221, 3.75098, 1830.7452, 5e-6, "reference pack §1, computed"),
+    (400.0, 100.0, 500.0, 2.53221, 3.75098, 1830.7452, 5e-6,
+     "computed from Shigley Eq. 17-1: pi -/+ 2 asin(0.3), sqrt(4C^2 - (D - d)^2) + (D th_l + d th_s)/2"),
     # hand check: (D - d)/C = 1 gives exactly 120 deg on the small pulley (common practice)
     (400.0, 100.0, 300.0, 2 * math.pi / 3, 4 * math.pi / 3, 1462.0930, 5e-7, "hand: asin(1/2)"),
 ]
@@ -50,14 +51,19 @@ def test_loop_geometry_equals_crossed_closed_form(D, d, C):
 
 
 def test_crossed_reference_value():
-    # reference pack §1: D=400, d=100, C=500 crossed: 240 deg, L = 1913.2230 (computed)
+    # D=400, d=100, C=500 crossed: 240 deg, L = 1913.2230 (computed from Shigley Eq. 17-2,
+    # from memory: theta = pi + 2 asin(500/1000), L = sqrt(4C^2 - (D + d)^2) + (D + d) theta/2)
     th, length = geo.crossed_belt(400.0, 100.0, 500.0)
     assert math.degrees(th) == pytest.approx(240.0, rel=1e-12)
     assert length == pytest.approx(1913.2230, rel=1e-7)
 
 
 def test_approximate_length_is_short_by_the_series_term():
-    # L_exact - L_approx ~ (D - d)**4 / (192 C**3) (reference pack §1, derived): 0.3470 vs 0.3375
+    # L_exact - L_approx ~ (D - d)**4 / (192 C**3): 0.3470 vs 0.3375 (derived: with
+    # s = (D - d)/(2C) = sin(a), the exact L = 2C cos(a) + pi (D + d)/2 + 2C s a; with
+    # cos(a) = 1 - s^2/2 - s^4/8 - ... and a = s + s^3/6 + ..., L = 2C + pi (D + d)/2
+    # + C s^2 + C s^4/12 + ...; C s^2 = (D - d)^2/(4C) is the approximation's last term and
+    # C s^4/12 = (D - d)^4/(192 C^3) what it leaves out)
     exact = geo.open_belt(400.0, 100.0, 500.0)[2]
     approx = geo.open_belt_approx_length(400.0, 100.0, 500.0)
     assert exact - approx == pytest.approx(0.3470, abs=1e-4)

@@ -45,7 +45,9 @@ def test_slip_and_grip_low():
 
 def test_fixed_centre_drive_goes_slack_at_the_critical_speed():
     # unloaded, fixed centres: P = T0 - m v^2 on every span, zero at v = sqrt(T0/m)
-    # (design, "Mechanics"; reference pack section 6)
+    # (derived: fixed centres keep the mean T = P + m v^2 at T0, and with no load every span
+    # carries the mean; at P = 0 the moving string's f_n = n P / (2 L sqrt(m T)) is 0:
+    # Archibald and Emslie, J. Appl. Mech., 1958, from memory)
     t0, m = 400.0, 0.12
     v_crit = math.sqrt(t0 / m)
     rpm_crit = v_crit / 0.05 / RPM

@@ -5,7 +5,8 @@ Sources, cited beside each check:
 - Centrifugal term and V-groove wedge factor: Budynas & Nisbett, Shigley's Mechanical
   Engineering Design, 9th ed., ch. 17, Eqs. 17-7 ff. (from memory).
 - Worked examples: Shigley 9th ed., Example 17-1 (flat belt) and Example 17-4 (V-belt);
-  inputs and published answers from memory, recomputed in the reference pack.
+  inputs and published answers from memory, recomputed from the equations cited beside
+  each check; all agree.
 """
 
 from __future__ import annotations
@@ -51,8 +52,8 @@ def test_capstan_ratio(mu, wrap_deg, expected, source):
 
 @pytest.mark.parametrize("mu,groove_deg,expected,source", [
     (0.2, 36.0, 0.647, "homework key of a machine-design text: 0.2 / sin 18 deg"),
-    (0.15, 34.0, 0.5130, "reference pack section 2, computed"),
-    (0.25, 40.0, 0.7310, "reference pack section 2, computed"),
+    (0.15, 34.0, 0.5130, "computed: mu / sin(phi/2) = 0.15 / sin 17 deg (Shigley ch. 17, from memory)"),
+    (0.25, 40.0, 0.7310, "computed: mu / sin(phi/2) = 0.25 / sin 20 deg (Shigley ch. 17, from memory)"),
 ])
 def test_wedge_factor(mu, groove_deg, expected, source):
     assert ten.wedge_friction(mu, math.radians(groove_deg)) == pytest.approx(expected, abs=6e-4)
@@ -61,7 +62,9 @@ def test_wedge_factor(mu, groove_deg, expected, source):
 def test_centrifugal_term_at_the_slip_limit():
     # Shigley Eq. 17-7 form (from memory): (T1 - m v^2)/(T2 - m v^2) = exp(mu theta).
     # P = 5 kW at v = 15 m/s, mu' = 0.5, theta = 160 deg, m = 0.12 kg/m: T1 = 469.98 N,
-    # T2 = 136.65 N (reference pack section 3, computed).
+    # T2 = 136.65 N (derived: with Te = T1 - T2 = P/v and Tc = m v^2, the slip limit
+    # (T1 - Tc) = e (T2 - Tc) gives T1 = Tc + Te e/(e - 1), T2 = Tc + Te/(e - 1); computed
+    # with e = exp(0.5 * 160 deg) = 4.0401, Te = 333.33 N, Tc = 27 N).
     e = ten.capstan_ratio(0.5, math.radians(160))
     te = 5000.0 / 15.0
     tc = 0.12 * 15.0**2
@@ -119,7 +122,9 @@ def test_shigley_flat_belt_lowest_install_tension():
     mech = _flat_belt_example(270.6).mechanics
     e = math.exp(0.8 * 3.0165)
     assert mech.min_install_tension_n / LBF == pytest.approx(742.8 / 6 * (e + 1) / (e - 1), rel=2e-4)
-    # fixed centres need the centrifugal part on top: 148.1 + 25.6 (reference pack section 3)
+    # fixed centres need the centrifugal part on top: 148.1 + 25.6 (derived: fixed centres
+    # keep the mean running tension T = P + m v^2 at the install tension T0, and the slip
+    # limit needs mean P = Fi above, so T0 = Fi + Fc)
     fixed = _flat_belt_example(270.6, "fixed").mechanics
     fc = 25.65
     assert fixed.min_install_tension_n / LBF == pytest.approx(742.8 / 6 * (e + 1) / (e - 1) + fc, abs=0.05)
@@ -162,8 +167,10 @@ def test_centre_distance_inverse(D, d, L):
     c = center_distance_exact(D, d, L)
     assert open_belt(D, d, c)[2] == pytest.approx(L, rel=1e-9)
     # the textbook's approximate inverse (Shigley ch. 17, from memory) errs by about half
-    # the length formula's error, (D - d)^4 / (384 C^3) to leading order (series of the
-    # exact form, derived in the reference pack); the next order adds about 25 % at
+    # the length formula's error, (D - d)^4 / (384 C^3) to leading order (derived: the
+    # exact length is L_approx(C) + (D - d)^4 / (192 C^3), see test_geometry's series test;
+    # the inverse solves L_approx(C_a) = L exactly, and dL_approx/dC = 2 - (D - d)^2/(4 C^2)
+    # ~ 2, so C_a - C ~ (D - d)^4 / (384 C^3)); the next order adds about 25 % at
     # (D - d)/C = 0.8, the largest ratio here
     approx = center_distance_approx(D, d, L)
     bound = (D - d) ** 4 / (384 * c**3)
@@ -173,7 +180,9 @@ def test_centre_distance_inverse(D, d, L):
 
 
 def test_shigley_centre_distance_reference_value():
-    # reference pack section 1: Lp = 113.8 in, D = 11, d = 7.4 -> C = 42.4105 in by both
+    # Shigley Example 17-4's belt and sheaves (from memory): Lp = 113.8 in, D = 11, d = 7.4
+    # -> C = 42.4105 in by both (computed: the root of Eq. 17-1's exact length, and
+    # C = (A + sqrt(A^2 - 2 (D - d)^2)) / 4, A = Lp - pi (D + d)/2; published C = 42.4 in)
     assert center_distance_exact(11.0, 7.4, 113.8) == pytest.approx(42.4105, abs=5e-5)
     assert center_distance_approx(11.0, 7.4, 113.8) == pytest.approx(42.4105, abs=5e-4)
     # L = 2000, D = 400, d = 100: exact 588.0646, approximate inverse 588.1739

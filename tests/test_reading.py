@@ -295,7 +295,7 @@ def test_travel_follows_the_speed_source_through_a_shared_shaft(tmp):
 
 def test_automatic_ids_follow_drawing_order_through_block_references(tmp):
     # model space holds: the big pulley as a block reference, then the small one as a
-    # CIRCLE; unlabelled pulleys are numbered in the order entities are stored (design)
+    # CIRCLE; unlabelled pulleys are numbered in the order entities are stored (README, the drawing contract: "in drawing order")
     doc = new_doc("mm")
     blk = doc.blocks.new("SHEAVE")
     blk.add_circle((0, 0), D / 2)

@@ -88,7 +88,7 @@ def test_report_shaft_row_reads_the_shaft_record():
 
 def test_fixed_centres_hub_load_is_largest_at_the_lowest_speed():
     # hand value: unloaded, fixed centres, so P = T0 - m v^2 on both spans (the mean belt
-    # tension T = P + m v^2 stays at T0; design "Mechanics"); equal pulleys, so the hub
+    # tension T = P + m v^2 stays at T0: the fixed-centre model of physics.tension); equal pulleys, so the hub
     # load is 2 P along the line of centres. T0 = 300 N, m = 0.5 kg/m, r = 0.05 m.
     # operating 1450 rpm: v = 151.844 * 0.05 = 7.5922 m/s, m v^2 = 28.8209 N, hub 542.358 N;
     # range 500 to 3000 rpm: largest at 500 rpm, v = 2.61799 m/s, m v^2 = 3.42694 N,

@@ -70,21 +70,32 @@ def test_string_closed_form_against_numerical_eigensolution(v_over_c):
     assert fd == pytest.approx(closed, rel=1e-2)
 
 
-def test_reference_pack_moving_string_values():
-    # reference pack section 6 (80-term Galerkin): m 0.12, L 0.4, T 400: f1 at rest 72.1688;
-    # v = 40: 37.5278 / 75.0555 / 112.5833 Hz
+def test_moving_string_values():
+    # closed form f_n = n P / (2 L sqrt(m T)) (Archibald and Emslie, "The vibration of a
+    # string having a uniform motion along its length", J. Appl. Mech., 1958; Wickert and
+    # Mote, J. Appl. Mech., 1990; from memory); computed for m 0.12, L 0.4, T 400:
+    # f1 at rest sqrt(400/0.12) / 0.8 = 72.1688; v = 40 (P = 400 - 0.12 * 40^2 = 208):
+    # 37.5278 / 75.0555 / 112.5833 Hz; the 80-term Galerkin solution galerkin_string
+    # (independent method) agrees to 1e-5 relative (asserted to 1 % in
+    # test_string_closed_form_against_numerical_eigensolution)
     assert sp.string_frequencies(400.0, 400.0, 0.12, 0.4, 1)[0] == pytest.approx(72.1688, abs=1e-4)
     P = 400.0 - 0.12 * 40**2
     assert sp.string_frequencies(P, 400.0, 0.12, 0.4, 3) == pytest.approx([37.5278, 75.0555, 112.5833], abs=1e-4)
 
 
 def test_beam_at_rest_equals_the_stationary_formula():
-    # pinned tensioned beam, exact (Blevins 1979, from memory); reference pack section 7:
-    # m 0.12, L 0.4, T 400, EI 0.5: 74.8995 / 165.1026 / 281.7875 Hz
+    # pinned tensioned beam, exact: f_n = (n / 2L) sqrt(T/m) sqrt(1 + n^2 B),
+    # B = pi^2 EI / (T L^2) (Blevins, Formulas for Natural Frequency and Mode Shape, 1979,
+    # beams with axial load; from memory); computed for m 0.12, L 0.4, T 400, EI 0.5
+    # (B = 0.07711): 74.8995 / 165.1026 / 281.7875 Hz
     f = sp.beam_frequencies(400.0, 0.12, 0.4, 0.5, 0.0, 3)
     assert f == pytest.approx(sp.pinned_beam_frequencies(400.0, 0.12, 0.4, 0.5, 3), rel=1e-9)
     assert f == pytest.approx([74.8995, 165.1026, 281.7875], abs=1e-4)
-    # clamped ends at rest: reference pack's characteristic-determinant values
+    # clamped ends at rest, computed: the roots in f of the 4x4 characteristic determinant of
+    # EI w'''' - T w'' = m (2 pi f)^2 w with w = w' = 0 at both ends (w a sum of cosh, sinh
+    # of a x and cos, sin of b x; a^2, b^2 the roots of EI s^2 -/+ T s - m (2 pi f)^2 = 0),
+    # found by bracketing and Brent's method; Fletcher's stiff-string approximation
+    # (J. Acoust. Soc. Am., 1964, from memory) gives 90.48 / 199.45 / 340.41, within 2 %
     fc = sp.beam_frequencies(400.0, 0.12, 0.4, 0.5, 0.0, 3, ends="clamped")
     assert fc == pytest.approx([90.7921, 198.6821, 334.855], abs=1e-3)
 
@@ -98,17 +109,22 @@ def test_moving_beam_against_finite_differences(v):
     assert gal == pytest.approx(fd, rel=1e-2)
 
 
-def test_reference_pack_moving_beam_values():
-    # reference pack section 7, 60-term Galerkin: v = 20: 67.5437 / 154.8837 / 271.33;
-    # v = 40: 45.3827 / 123.7779 / 239.4036
+def test_moving_beam_values():
+    # computed: a 60-term sine-series Galerkin solution of the moving pinned beam
+    # m w_tt + 2 m v w_xt - P w_xx + EI w_xxxx = 0 (galerkin_string with EI k^4 added to the
+    # stiffness; gyroscopic form as in Wickert and Mote 1990, from memory), independent of
+    # the basis physics.spans uses; m 0.12, L 0.4, T 400, EI 0.5, P = T - m v^2:
+    # v = 20: 67.5437 / 154.8837 / 271.33; v = 40: 45.3827 / 123.7779 / 239.4036; finite
+    # differences agree to 1 % (test_moving_beam_against_finite_differences)
     for v, ref in ((20.0, [67.5437, 154.8837, 271.33]), (40.0, [45.3827, 123.7779, 239.4036])):
         f = sp.beam_frequencies(400.0 - 0.12 * v * v, 0.12, 0.4, 0.5, v, 3)
         assert f == pytest.approx(ref, rel=2e-5)
 
 
 def test_fundamental_goes_to_zero_with_tension_and_the_span_goes_slack():
-    # f1 -> 0 as P -> 0 (design, "Mechanics"); an unloaded fixed-centre drive reaches it at
-    # v = sqrt(T0 / m)
+    # f1 -> 0 as P -> 0 (the closed form n P / (2 L sqrt(m T)) above); an unloaded
+    # fixed-centre drive reaches it at v = sqrt(T0 / m) (derived: fixed centres keep the mean
+    # T = P + m v^2 at T0, and with no load every span carries the mean, so P = T0 - m v^2)
     t0, m = 300.0, 0.1
     v_crit = math.sqrt(t0 / m)
     f_prev = math.inf
@@ -133,12 +149,15 @@ def test_fundamental_goes_to_zero_with_tension_and_the_span_goes_slack():
 
 
 def test_catenary_against_worked_examples():
-    # level span, L = 10 m, w = 4.9033 N/m, H = 200 N: 0.30684 m (reference pack section 9,
-    # computed); the parabola w L^2 / 8H gives 0.30646 m (0.125 % less)
+    # level span, L = 10 m, w = 4.9033 N/m, H = 200 N: 0.30684 m (catenary sag
+    # d = a (cosh(L / 2a) - 1), a = H / w: Irvine, Cable Structures, MIT Press 1981, ch. 1,
+    # from memory; computed with a = 40.7889 m); the parabola w L^2 / 8H gives 0.30646 m
+    # (0.125 % less)
     assert sp.catenary_sag([10.0, 0.0], [0, -1], 4.9033, 200.0) == pytest.approx(0.30684, abs=1e-5)
     assert sp.parabolic_sag(4.9033, 10.0, 200.0) == pytest.approx(0.30646, abs=1e-5)
     # cable of 200 ft, 10 lbf/ft, sagging 25 ft: H = 2040.4 lbf (a statics-text worked
-    # example, from memory, recomputed in the reference pack: a = 204.036 ft)
+    # example, from memory; computed: a (cosh(100 / a) - 1) = 25 solved for a by Brent's
+    # method gives a = 204.036 ft, H = w a)
     assert sp.catenary_sag([200.0, 0.0], [0, -1], 10.0, 2040.36) == pytest.approx(25.0, abs=2e-3)
     # inclined: run 100, rise 30, w 10, H 5000: largest sag along gravity 2.61195 at x 50.239
     assert sp.catenary_sag([100.0, 30.0], [0, -1], 10.0, 5000.0) == pytest.approx(2.61195, abs=1e-5)
@@ -211,7 +230,9 @@ def test_sag_fields_in_the_report(tmp):
     import json
     span = json.loads((tmp / "r.json").read_text())["loops"][0]["spans"][0]
     # inclined span at rest, no speed source: catenary and parabola agree for small sag,
-    # the parabola w L^2 / 8P measured along gravity at any incline (design, "Mechanics")
+    # the parabola w L^2 / 8P measured along gravity at any incline (derived: the load
+    # square to the chord is w cos(beta), so the offset square to the chord is
+    # w cos(beta) L^2 / 8P; measured along gravity it is that over cos(beta): w L^2 / 8P)
     L = span["length_m"]
     assert span["static_parabolic_sag_m"] == pytest.approx(0.2 * 9.80665 * L**2 / (8 * 150.0), rel=1e-12)
     assert span["static_sag_m"] == pytest.approx(span["static_parabolic_sag_m"], rel=1e-2)

@@ -1,8 +1,9 @@
 """Tension models, power flow and sizing against hand-derived closed forms.
 
-The closed forms are derived by hand from the design's mechanics (torque steps, the
-length-weighted mean for fixed centres, force balance on a tensioner idler) and cited
-as such; the reference pack (section 4) gives the worked numbers used for a hand check.
+The closed forms are derived by hand (torque steps from each pulley's torque balance
+Q = r (P_arriving - P_leaving), the length-weighted mean for fixed centres, force balance
+on a tensioner idler) and cited as such; the worked numbers of the hand check are derived
+in the comments of the tensioner-numbers test below.
 """
 
 from __future__ import annotations
@@ -49,7 +50,9 @@ def test_mean_tension_with_speed(tensioning):
 
 def _with_tensioner(**ten_kw) -> tuple[Drive, geo.LoopGeometry]:
     # A drives (r 0.05, +20 N m), I is a back-side tensioner on the slack span, B is the
-    # load (r 0.10, -40 N m): steps of -400 N at A and +400 N at B (reference pack section 4)
+    # load (r 0.10, -40 N m): steps of -400 N at A and +400 N at B (derived: the torque
+    # balance Q = r (P_arriving - P_leaving) gives P_leaving = P_arriving - Q/r, so
+    # -20/0.05 = -400 N at A and +40/0.10 = +400 N at B)
     a = Pulley("A", (0.0, 0.0), 0.05, Role.DRIVER, speed_rad_s=100.0, direction=1)
     i = Pulley("I", (0.25, -0.03), 0.03, Role.TENSIONER, **ten_kw)
     b = Pulley("B", (0.5, 0.0), 0.10, Role.DRIVEN, torque_nm=40.0)
@@ -89,10 +92,12 @@ def test_tensioner_on_a_slide_and_on_an_arm():
     assert mech.quasi_static_n[0, 0] == pytest.approx(12.0 / lever, rel=1e-12)
 
 
-def test_reference_pack_tensioner_numbers():
-    # reference pack section 4: F = 250 N on a 70 deg wrap gives 217.931 N on both its spans
-    # and 617.931 N on the tight span after the +400 N step; at 20 m/s and 0.12 kg/m the
-    # running tension on the tensioner's spans is 265.931 N
+def test_tensioner_hand_numbers():
+    # derived: force balance on the idler along its bisector, F = 2 P sin(theta/2), so
+    # F = 250 N on a 70 deg wrap gives P = 250 / (2 sin 35 deg) = 217.931 N on both its
+    # spans and 617.931 N on the tight span after the +400 N step (40 N m / 0.10 m); at
+    # 20 m/s and 0.12 kg/m the running tension T = P + m v^2 on the tensioner's spans is
+    # 217.931 + 0.12 * 20^2 = 265.931 N
     p = 250.0 / (2 * math.sin(math.radians(35)))
     assert p == pytest.approx(217.931, abs=5e-4)
     assert p + 400 == pytest.approx(617.931, abs=5e-4)
