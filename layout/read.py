@@ -3,10 +3,12 @@
 The reader refuses what is not a DXF by its first bytes (a DWG, a PDF, random bytes),
 reads the header's version and units from the raw file (ezdxf upgrades old versions
 on load and reports metres for a drawing without header), tries ezdxf's normal reader
-first and its recovery reader second, and flattens model space: block references are
-expanded with their transforms (nested, rotated, mirrored, scaled), each entity's
-object coordinate system is resolved, and every curve that can be part of a belt path
-becomes a *segment* ``(p0, p1, centre, radius, sweep)`` (``sweep`` = 0 for a straight
+first and its recovery reader second; a text DXF both reject, or whose entities the
+recovery reader loses (measured against a walk of the raw tags), is rebuilt from its raw
+tags by :mod:`layout.rawread` (``Drawing.rebuilt``). It then flattens model space: block
+references are expanded with their transforms (nested, rotated, mirrored, scaled), each
+entity's object coordinate system is resolved, and every curve that can be part of a belt
+path becomes a *segment* ``(p0, p1, centre, radius, sweep)`` (``sweep`` = 0 for a straight
 piece, signed radians counter-clockwise for an arc).
 
 Entities that cannot take part (dimensions, hatches, splines, 3D solids) are skipped.
@@ -22,7 +24,7 @@ import re
 from collections import defaultdict
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any
+from typing import Any, Callable
 
 import numpy as np
 from numpy.typing import NDArray
@@ -143,6 +145,9 @@ class Drawing:
     entity_count: int = 0
     own_count: int = 0
     """Entities on spanwise's own layers or of its own blocks: skipped, never drawing content."""
+    rebuilt: bool = False
+    """Read from the raw DXF tags into a new document (:mod:`layout.rawread`): ``document`` then
+    holds spanwise's rebuilt copy of the entities, not the user's own, and must not replace the file."""
     document: Any = field(default=None, repr=False, compare=False)
     """The ezdxf document, when the caller asked to keep it (for writing back)."""
 
@@ -203,37 +208,84 @@ def _has_eof(data: bytes, binary: bool) -> bool:
     return tail.rstrip().endswith(b"EOF")
 
 
-def _load(path: str, data: bytes, binary: bool) -> tuple[Any, bool, list[Finding]]:
-    import ezdxf
-    from ezdxf import recover
+@dataclass(frozen=True, slots=True)
+class _Loaded:
+    """A loaded document and how it was read."""
 
-    findings: list[Finding] = []
+    doc: Any
+    recovered: bool = False         # not by the normal reader
+    rebuilt: bool = False           # rebuilt from the raw tags by :mod:`layout.rawread`
+    findings: list[Finding] = field(default_factory=list)
+
+
+def _load(path: str, data: bytes, binary: bool) -> _Loaded:
+    """The document, by ezdxf's normal reader, else its recovery reader, else the raw tags."""
+    import ezdxf
+
     complete = _has_eof(data, binary)
     first_error: Exception | None = None
     if complete or binary:
         try:
-            return ezdxf.readfile(path), False, findings
+            return _Loaded(ezdxf.readfile(path))
         except Exception as err:  # the third-party reader raises many kinds; all mean "damaged"
             first_error = err
     if binary:
         raise NotADrawing(f"{path}: damaged binary DXF ({type(first_error).__name__}: "
                           f"{first_error}); expected a readable DXF drawing")
-    try:
-        doc, auditor = recover.readfile(path)
-    except Exception as err:
-        raise NotADrawing(f"{path}: not a readable DXF drawing ({type(err).__name__}: {err})") from err
     why = "the file has no end-of-file marker (truncated?)" if not complete else (
         f"the normal reader failed ({type(first_error).__name__}: {first_error})")
-    fixes = len(getattr(auditor, "fixes", []))
-    errors = len(getattr(auditor, "errors", []))
-    findings.append(Finding(Severity.NOTE, "recovered",
-                            f"{Path(path).name}: read with the recovery reader: {why}; "
-                            f"{fixes} repair(s), {errors} unrecoverable problem(s); check the "
-                            f"drawing is complete", data={"fixes": fixes, "errors": errors}))
-    if not complete:
-        findings[-1] = Finding(Severity.WARNING, "recovered", findings[-1].message,
-                               data=findings[-1].data)
-    return doc, True, findings
+    return _recover(path, data, complete, why)
+
+
+def _recover(path: str, data: bytes, complete: bool, why: str) -> _Loaded:
+    """The recovery reader's document, unless the raw tags hold entities it could not read.
+
+    The raw walk (:func:`layout.rawread.walk`) is the judge: when the recovery reader
+    raises, or its model space holds fewer entities of some type spanwise reads than the
+    raw tags do, the drawing is rebuilt from the raw tags (:func:`layout.rawread.build`).
+    """
+    from ezdxf import recover
+
+    from . import rawread
+
+    doc = auditor = failure = None
+    try:
+        doc, auditor = recover.readfile(path)
+    except Exception as err:    # the recovery reader raises many kinds too
+        failure = err
+    raw = rawread.walk(data)
+    lost = rawread.lost_entities(raw, doc) if doc is not None else {}
+    severity = Severity.NOTE if complete else Severity.WARNING
+    name = Path(path).name
+    if doc is not None and not lost:
+        fixes = len(getattr(auditor, "fixes", []))
+        errors = len(getattr(auditor, "errors", []))
+        return _Loaded(doc, True, False, [Finding(
+            severity, "recovered", f"{name}: read with the recovery reader: {why}; {fixes} repair(s), "
+            f"{errors} unrecoverable problem(s); check the drawing is complete",
+            data={"fixes": fixes, "errors": errors})])
+    if doc is None and not raw.entities:
+        raise NotADrawing(f"{path}: not a readable DXF drawing ({type(failure).__name__}: {failure})") from failure
+    units = _raw_header(data, False)[1]
+    code = next((k for k, v in INSUNITS_NAMES.items() if v == units), 0)
+    rebuilt, count = rawread.build(raw, insunits=code)
+    if doc is not None:
+        then = "the recovery reader lost " + _counted(lost)
+    else:
+        then = "the recovery reader failed too" + ("" if str(failure) in why else
+                                                   f" ({type(failure).__name__}: {failure})")
+    stopped = f"; the tags end early ({raw.stopped})" if raw.stopped else ""
+    message = (f"{name}: read from its raw DXF tags and rebuilt ({count} entities): {why}, and {then}; "
+               f"skipped {_counted(raw.skipped) or 'nothing'}{stopped}; check the drawing is complete")
+    return _Loaded(rebuilt, True, True, [Finding(
+        Severity.WARNING if raw.stopped else severity, "recovered", " ".join(message.split()),
+        data={"reader": "raw-tags", "rebuilt": count, "skipped": dict(sorted(raw.skipped.items())),
+              "lost": lost})])
+
+
+def _counted(counts: dict[str, int]) -> str:
+    """``{"HATCH": 3, "SPLINE": 1}`` as "3 HATCH, 1 SPLINE" (most first)."""
+    return ", ".join(f"{n} {what}" for what, n in sorted(counts.items(), key=lambda kv: (-kv[1], kv[0])))
 
 
 # --------------------------------------------------------------------------- collecting
@@ -363,8 +415,131 @@ def _add_polyline(col: _Collector, pts: list[tuple[float, float, float]], closed
         col.seg(p0, p1, cx, cy, r, sw, group, layer, handle, kind)
 
 
+def _collect_line(col: _Collector, e: Any, layer: str, handle: str) -> bool:
+    s, en = e.dxf.start, e.dxf.end
+    if s.x != en.x or s.y != en.y:
+        col.seg((s.x, s.y), (en.x, en.y), 0.0, 0.0, 0.0, 0.0, -1, layer, handle, "LINE")
+    return True
+
+
+def _collect_circle(col: _Collector, e: Any, layer: str, handle: str) -> bool:
+    sign = _ocs_sign(e)
+    if sign is None:
+        return False
+    c = e.dxf.center
+    r = e.dxf.radius
+    if r > 0:
+        col.circle(sign * c.x, c.y, r, layer, handle)
+    return True
+
+
+def _collect_arc(col: _Collector, e: Any, layer: str, handle: str) -> bool:
+    sign = _ocs_sign(e)
+    if sign is None:
+        return False
+    dxf = e.dxf
+    c = dxf.center
+    r = dxf.radius
+    a0 = math.radians(dxf.start_angle)
+    a1 = math.radians(dxf.end_angle)
+    sw = (a1 - a0) % (2 * math.pi)
+    if r <= 0 or sw == 0.0:
+        return False
+    p0 = (sign * (c.x + r * math.cos(a0)), c.y + r * math.sin(a0))
+    p1 = (sign * (c.x + r * math.cos(a1)), c.y + r * math.sin(a1))
+    col.seg(p0, p1, sign * c.x, c.y, r, sign * sw, -1, layer, handle, "ARC")
+    return True
+
+
+def _collect_lwpolyline(col: _Collector, e: Any, layer: str, handle: str) -> bool:
+    sign = _ocs_sign(e)
+    if sign is None:
+        return False
+    pts = [(float(x), float(y), float(b)) for x, y, b in e.get_points("xyb")]
+    _add_polyline(col, pts, bool(e.closed), sign, layer, handle, "LWPOLYLINE")
+    return True
+
+
+def _collect_polyline(col: _Collector, e: Any, layer: str, handle: str) -> bool:
+    """A 2D (OCS, with bulges) or 3D polyline; meshes and polyfaces are counted, not read."""
+    if e.is_2d_polyline:
+        sign = _ocs_sign(e)
+        if sign is None:
+            return False
+        pts = [(v.dxf.location.x, v.dxf.location.y, v.dxf.get("bulge", 0.0)) for v in e.vertices]
+        _add_polyline(col, pts, bool(e.is_closed), sign, layer, handle, "POLYLINE")
+    elif e.is_3d_polyline:
+        pts = [(v.dxf.location.x, v.dxf.location.y, 0.0) for v in e.vertices]
+        _add_polyline(col, pts, bool(e.is_closed), 1.0, layer, handle, "POLYLINE")
+    return True
+
+
+def _collect_ellipse(col: _Collector, e: Any, layer: str, handle: str) -> bool:
+    """An ELLIPSE of axis ratio 1 in the drawing plane: a circle, or an arc of one.
+
+    A full one is added as a circle but, as before, not counted among the entities read.
+    """
+    sign = _ocs_sign(e)   # ELLIPSE is in WCS; its extrusion only orients the sweep
+    dxf = e.dxf
+    if sign is None or abs(dxf.ratio - 1.0) > CIRCLE_RATIO_TOL:
+        return False
+    c = dxf.center
+    major = dxf.major_axis
+    r = math.hypot(major.x, major.y)
+    if r <= 0 or abs(major.z) > 1e-9 * r:
+        return False
+    p0, p1 = dxf.start_param, dxf.end_param
+    sw = (p1 - p0) % (2 * math.pi)
+    if sw < 1e-9 or sw > 2 * math.pi - 1e-9:      # a full ellipse of axis ratio 1
+        col.circle(c.x, c.y, r, layer, handle)
+        return False
+    base = math.atan2(major.y, major.x)
+    a0 = base + sign * p0
+    a1 = base + sign * p1
+    col.seg((c.x + r * math.cos(a0), c.y + r * math.sin(a0)),
+            (c.x + r * math.cos(a1), c.y + r * math.sin(a1)), c.x, c.y, r, sign * sw, -1,
+            layer, handle, "ELLIPSE")
+    return True
+
+
+def _collect_text(col: _Collector, e: Any, layer: str, handle: str) -> bool:
+    dxf = e.dxf
+    p = dxf.insert
+    if (dxf.get("halign", 0) or dxf.get("valign", 0)) and dxf.hasattr("align_point"):
+        p = dxf.align_point
+    sign = _ocs_sign(e) or 1.0
+    col.text(sign * p.x, p.y, e.plain_text(), layer, handle)
+    return True
+
+
+def _collect_mtext(col: _Collector, e: Any, layer: str, handle: str) -> bool:
+    p = e.dxf.insert
+    col.text(p.x, p.y, e.plain_text(split=False), layer, handle)
+    return True
+
+
+#: One function per entity type that can hold a pulley, a piece of belt or a label: each adds
+#: the entity to the collector and says whether it counts among the entities read.
+_COLLECT: dict[str, Callable[[_Collector, Any, str, str], bool]] = {
+    "LINE": _collect_line, "CIRCLE": _collect_circle, "ARC": _collect_arc,
+    "LWPOLYLINE": _collect_lwpolyline, "POLYLINE": _collect_polyline, "ELLIPSE": _collect_ellipse,
+    "TEXT": _collect_text, "MTEXT": _collect_mtext}
+
+
 def _collect_entity(col: _Collector, e: Any, inserts: list[Any] | None, layer0: str | None = None) -> None:
-    """Add one entity to ``col``; block references go to ``inserts`` for later expansion."""
+    """Add one entity to ``col``; block references go to ``inserts`` for later expansion.
+
+    Parameters
+    ----------
+    col
+        The primitives of the coordinate system ``e`` lives in.
+    e
+        An ezdxf entity; types without a collector in :data:`_COLLECT` are skipped.
+    inserts
+        Where block references are kept (``None``: not kept, only counted).
+    layer0
+        The layer that replaces layer ``"0"`` (an entity of a block takes its reference's).
+    """
     t = e.dxftype()
     dxf = e.dxf
     layer = dxf.layer
@@ -373,90 +548,140 @@ def _collect_entity(col: _Collector, e: Any, inserts: list[Any] | None, layer0: 
     if is_own_name(layer) or (t == "INSERT" and is_own_name(dxf.name)):
         col.own += 1                  # spanwise's own annotation: never drawing content
         return
-    handle = dxf.handle or ""
-    if t == "LINE":
-        s, en = dxf.start, dxf.end
-        if s.x != en.x or s.y != en.y:
-            col.seg((s.x, s.y), (en.x, en.y), 0.0, 0.0, 0.0, 0.0, -1, layer, handle, t)
-    elif t == "CIRCLE":
-        sign = _ocs_sign(e)
-        if sign is None:
-            return
-        c = dxf.center
-        r = dxf.radius
-        if r > 0:
-            col.circle(sign * c.x, c.y, r, layer, handle)
-    elif t == "ARC":
-        sign = _ocs_sign(e)
-        if sign is None:
-            return
-        c = dxf.center
-        r = dxf.radius
-        a0 = math.radians(dxf.start_angle)
-        a1 = math.radians(dxf.end_angle)
-        sw = (a1 - a0) % (2 * math.pi)
-        if r <= 0 or sw == 0.0:
-            return
-        p0 = (sign * (c.x + r * math.cos(a0)), c.y + r * math.sin(a0))
-        p1 = (sign * (c.x + r * math.cos(a1)), c.y + r * math.sin(a1))
-        col.seg(p0, p1, sign * c.x, c.y, r, sign * sw, -1, layer, handle, t)
-    elif t == "LWPOLYLINE":
-        sign = _ocs_sign(e)
-        if sign is None:
-            return
-        pts = [(float(x), float(y), float(b)) for x, y, b in e.get_points("xyb")]
-        _add_polyline(col, pts, bool(e.closed), sign, layer, handle, t)
-    elif t == "POLYLINE":
-        if e.is_2d_polyline:
-            sign = _ocs_sign(e)
-            if sign is None:
-                return
-            pts = [(v.dxf.location.x, v.dxf.location.y, v.dxf.get("bulge", 0.0)) for v in e.vertices]
-            _add_polyline(col, pts, bool(e.is_closed), sign, layer, handle, t)
-        elif e.is_3d_polyline:
-            pts = [(v.dxf.location.x, v.dxf.location.y, 0.0) for v in e.vertices]
-            _add_polyline(col, pts, bool(e.is_closed), 1.0, layer, handle, t)
-    elif t == "ELLIPSE":
-        sign = _ocs_sign(e)   # ELLIPSE is in WCS; its extrusion only orients the sweep
-        if sign is None:
-            return
-        if abs(dxf.ratio - 1.0) > CIRCLE_RATIO_TOL:
-            return
-        c = dxf.center
-        major = dxf.major_axis
-        r = math.hypot(major.x, major.y)
-        if r <= 0 or abs(major.z) > 1e-9 * r:
-            return
-        p0, p1 = dxf.start_param, dxf.end_param
-        sw = (p1 - p0) % (2 * math.pi)
-        if sw < 1e-9 or sw > 2 * math.pi - 1e-9:      # a full ellipse of axis ratio 1
-            col.circle(c.x, c.y, r, layer, handle)
-            return
-        base = math.atan2(major.y, major.x)
-        a0 = base + sign * p0
-        a1 = base + sign * p1
-        col.seg((c.x + r * math.cos(a0), c.y + r * math.sin(a0)),
-                (c.x + r * math.cos(a1), c.y + r * math.sin(a1)), c.x, c.y, r, sign * sw, -1,
-                layer, handle, t)
-    elif t == "TEXT":
-        p = dxf.insert
-        if (dxf.get("halign", 0) or dxf.get("valign", 0)) and dxf.hasattr("align_point"):
-            p = dxf.align_point
-        sign = _ocs_sign(e) or 1.0
-        col.text(sign * p.x, p.y, e.plain_text(), layer, handle)
-    elif t == "MTEXT":
-        p = dxf.insert
-        col.text(p.x, p.y, e.plain_text(split=False), layer, handle)
-    elif t == "INSERT":
+    if t == "INSERT":
         if inserts is not None:
             inserts.append(e)
-    else:
+        col.count += 1
         return
-    col.count += 1
+    collect = _COLLECT.get(t)
+    if collect is not None and collect(col, e, layer, dxf.handle or ""):
+        col.count += 1
 
 
 def _matrix(insert: Any) -> NDArray[np.float64]:
     return np.array(list(insert.matrix44().rows()), dtype=float)
+
+
+@dataclass(frozen=True, slots=True)
+class _References:
+    """The block references of one block, as arrays over the references (shape ``(k, ...)``)."""
+
+    a: NDArray[np.float64]              # (k, 2, 2) linear part, rows = images of the x and y axes
+    tr: NDArray[np.float64]             # (k, 2) translation
+    scale: NDArray[np.float64]          # (k,) the larger axis scale
+    uniform: NDArray[np.bool_]          # x and y scaled alike, axes kept square: circles stay round
+    planar: NDArray[np.bool_]           # maps the drawing plane onto itself
+    flip: NDArray[np.float64]           # -1 where the reference mirrors
+    owners: NDArray[Any]                # handles of the references (object array)
+    layers: NDArray[Any]                # their layers (object array)
+    orders: NDArray[np.int64]           # their drawing order
+    names: list[str]                    # the block name, per reference
+
+    @classmethod
+    def of(cls, mats: NDArray[np.float64], owners: list[str], layers: list[str], names: list[str],
+           orders: list[int]) -> "_References":
+        a = mats[:, :2, :2]
+        n0 = np.hypot(a[:, 0, 0], a[:, 0, 1])
+        n1 = np.hypot(a[:, 1, 0], a[:, 1, 1])
+        dotp = a[:, 0, 0] * a[:, 1, 0] + a[:, 0, 1] * a[:, 1, 1]
+        scale = np.maximum(n0, n1)
+        uniform = (np.abs(n0 - n1) <= UNIFORM_SCALE_TOL * scale) & (
+            np.abs(dotp) <= UNIFORM_SCALE_TOL * scale * scale)
+        planar = (np.abs(mats[:, 0, 2]) <= 1e-9 * scale) & (np.abs(mats[:, 1, 2]) <= 1e-9 * scale) & (scale > 0)
+        det = a[:, 0, 0] * a[:, 1, 1] - a[:, 0, 1] * a[:, 1, 0]
+        return cls(a, mats[:, 3, :2], scale, uniform, planar, np.where(det < 0, -1.0, 1.0),
+                   np.asarray(owners, dtype=object), np.asarray(layers, dtype=object),
+                   np.asarray(orders, dtype=np.int64), names)
+
+    def xf(self, x: list[float], y: list[float]) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
+        """Points ``(x, y)`` of the block in every reference: two arrays of shape ``(k, n)``."""
+        a, tr = self.a, self.tr
+        xa = np.asarray(x, dtype=float)
+        ya = np.asarray(y, dtype=float)
+        X = xa[None, :] * a[:, 0, 0, None] + ya[None, :] * a[:, 1, 0, None] + tr[:, 0, None]
+        Y = xa[None, :] * a[:, 0, 1, None] + ya[None, :] * a[:, 1, 1, None] + tr[:, 1, None]
+        return X, Y
+
+    def strings(self, local_layers: list[str], local_handles: list[str], mask: NDArray[np.bool_]
+                ) -> tuple[list[str], list[str], list[str]]:
+        """Layers (``"0"`` takes the reference's), handles ``INSERT/ENTITY`` and owners of the kept rows."""
+        ll = np.asarray(local_layers, dtype=object)
+        lay = np.where((ll == "0")[None, :], self.layers[:, None], ll[None, :])
+        hnd = self.owners[:, None] + ("/" + np.asarray(local_handles, dtype=object))[None, :]
+        ownr = np.broadcast_to(self.owners[:, None], mask.shape)
+        return lay[mask].tolist(), hnd[mask].tolist(), ownr[mask].tolist()
+
+    def orders_of(self, mask: NDArray[np.bool_]) -> list[int]:
+        return np.broadcast_to(self.orders[:, None], mask.shape)[mask].tolist()
+
+
+def _repeat(values: list[str], mask: NDArray[np.bool_]) -> list[str]:
+    """Per-entity ``values`` repeated over the references, kept rows only."""
+    return np.broadcast_to(np.asarray(values, dtype=object)[None, :], mask.shape)[mask].tolist()
+
+
+def _expand_circles(target: _Collector, local: _Collector, refs: _References) -> None:
+    """The circles of ``local`` in every reference; a reference that makes them ellipses is reported."""
+    X, Y = refs.xf(local.c[0], local.c[1])
+    R = np.asarray(local.c[2])[None, :] * refs.scale[:, None]
+    for i in np.flatnonzero(refs.planar & ~refs.uniform):
+        for j, h in enumerate(local.c_handle):
+            target.findings.append(Finding(
+                Severity.WARNING, "circle-distorted",
+                f"CIRCLE #{h} in block '{refs.names[i]}' (INSERT #{refs.owners[i]}) at "
+                f"({X[i, j]:.6g}, {Y[i, j]:.6g}): the block reference scales x and y "
+                f"differently, so the circle is an ellipse and not taken as a pulley",
+                at=(float(X[i, j]), float(Y[i, j])), refs=(refs.owners[i],)))
+    mask = np.broadcast_to((refs.planar & refs.uniform)[:, None], X.shape)
+    target.c[0].extend(X[mask].tolist())
+    target.c[1].extend(Y[mask].tolist())
+    target.c[2].extend(R[mask].tolist())
+    lay, hnd, ownr = refs.strings(local.c_layer, local.c_handle, mask)
+    target.c_layer.extend(lay)
+    target.c_handle.extend(hnd)
+    target.c_owner.extend(ownr)
+    target.c_order.extend(refs.orders_of(mask))
+
+
+def _expand_segments(target: _Collector, local: _Collector, refs: _References) -> None:
+    """The segments of ``local`` in every reference; arcs only where the reference keeps them round.
+
+    The polylines of each reference get groups of their own, after the target's.
+    """
+    k = refs.a.shape[0]
+    X0, Y0 = refs.xf(local.s[0], local.s[1])
+    X1, Y1 = refs.xf(local.s[2], local.s[3])
+    CX, CY = refs.xf(local.s[4], local.s[5])
+    rr = np.asarray(local.s[6])
+    sw = np.asarray(local.s[7])
+    is_arc = sw != 0.0
+    mask = refs.planar[:, None] & (refs.uniform[:, None] | ~is_arc[None, :])
+    groups = np.asarray(local.s_group)
+    base = target.n_groups + local.n_groups * np.arange(k)
+    G = np.where(groups[None, :] >= 0, groups[None, :] + base[:, None], -1)
+    target.n_groups += local.n_groups * k
+    for arr, src in zip(target.s, (X0, Y0, X1, Y1, np.where(is_arc[None, :], CX, 0.0),
+                                   np.where(is_arc[None, :], CY, 0.0),
+                                   rr[None, :] * refs.scale[:, None], sw[None, :] * refs.flip[:, None])):
+        arr.extend(src[mask].tolist())
+    target.s_group.extend(G[mask].tolist())
+    lay, hnd, _ = refs.strings(local.s_layer, local.s_handle, mask)
+    target.s_layer.extend(lay)
+    target.s_handle.extend(hnd)
+    target.s_kind.extend(_repeat(local.s_kind, mask))
+    target.s_order.extend(refs.orders_of(mask))
+
+
+def _expand_texts(target: _Collector, local: _Collector, refs: _References) -> None:
+    """The texts of ``local`` at their place in every reference in the drawing plane."""
+    X, Y = refs.xf(local.t[0], local.t[1])
+    mask = np.broadcast_to(refs.planar[:, None], X.shape)
+    target.t[0].extend(X[mask].tolist())
+    target.t[1].extend(Y[mask].tolist())
+    target.t_text.extend(_repeat(local.t_text, mask))
+    lay, hnd, _ = refs.strings(local.t_layer, local.t_handle, mask)
+    target.t_layer.extend(lay)
+    target.t_handle.extend(hnd)
 
 
 def _expand(target: _Collector, local: _Collector, mats: NDArray[np.float64], owners: list[str],
@@ -465,117 +690,68 @@ def _expand(target: _Collector, local: _Collector, mats: NDArray[np.float64], ow
 
     Vectorised over the block references: one numpy operation per array, whatever the
     number of references to the block.
+
+    Parameters
+    ----------
+    target
+        The collector of the coordinate system the references live in.
+    local
+        The primitives of the block, in its own coordinates.
+    mats
+        Shape ``(k, 4, 4)``: the transforms of the ``k`` references (row vectors).
+    owners, layers, names, orders
+        Per reference: its handle, layer, block name and drawing order.
     """
-    k = mats.shape[0]
-    if k == 0:
+    if mats.shape[0] == 0:
         return
-    a = mats[:, :2, :2]                       # linear part, rows = images of x and y axes
-    tr = mats[:, 3, :2]
-    n0 = np.hypot(a[:, 0, 0], a[:, 0, 1])
-    n1 = np.hypot(a[:, 1, 0], a[:, 1, 1])
-    dotp = a[:, 0, 0] * a[:, 1, 0] + a[:, 0, 1] * a[:, 1, 1]
-    scale = np.maximum(n0, n1)
-    uniform = (np.abs(n0 - n1) <= UNIFORM_SCALE_TOL * scale) & (
-        np.abs(dotp) <= UNIFORM_SCALE_TOL * scale * scale)
-    planar = (np.abs(mats[:, 0, 2]) <= 1e-9 * scale) & (np.abs(mats[:, 1, 2]) <= 1e-9 * scale) & (scale > 0)
-    det = a[:, 0, 0] * a[:, 1, 1] - a[:, 0, 1] * a[:, 1, 0]
-    flip = np.where(det < 0, -1.0, 1.0)
-    own = np.asarray(owners, dtype=object)
-    ins_layer = np.asarray(layers, dtype=object)
-    ins_order = np.asarray(orders, dtype=np.int64)
-
-    def xf(x: list[float], y: list[float]) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
-        xa = np.asarray(x, dtype=float)
-        ya = np.asarray(y, dtype=float)
-        X = xa[None, :] * a[:, 0, 0, None] + ya[None, :] * a[:, 1, 0, None] + tr[:, 0, None]
-        Y = xa[None, :] * a[:, 0, 1, None] + ya[None, :] * a[:, 1, 1, None] + tr[:, 1, None]
-        return X, Y
-
-    def strings(local_layers: list[str], local_handles: list[str], mask: NDArray[np.bool_]
-                ) -> tuple[list[str], list[str], list[str]]:
-        ll = np.asarray(local_layers, dtype=object)
-        lay = np.where((ll == "0")[None, :], ins_layer[:, None], ll[None, :])
-        hnd = own[:, None] + ("/" + np.asarray(local_handles, dtype=object))[None, :]
-        ownr = np.broadcast_to(own[:, None], mask.shape)
-        return lay[mask].tolist(), hnd[mask].tolist(), ownr[mask].tolist()
-
+    refs = _References.of(mats, owners, layers, names, orders)
     if local.c_handle:
-        X, Y = xf(local.c[0], local.c[1])
-        R = np.asarray(local.c[2])[None, :] * scale[:, None]
-        for i in np.flatnonzero(planar & ~uniform):
-            for j, h in enumerate(local.c_handle):
-                target.findings.append(Finding(
-                    Severity.WARNING, "circle-distorted",
-                    f"CIRCLE #{h} in block '{names[i]}' (INSERT #{owners[i]}) at "
-                    f"({X[i, j]:.6g}, {Y[i, j]:.6g}): the block reference scales x and y "
-                    f"differently, so the circle is an ellipse and not taken as a pulley",
-                    at=(float(X[i, j]), float(Y[i, j])), refs=(owners[i],)))
-        mask = np.broadcast_to((planar & uniform)[:, None], X.shape)
-        target.c[0].extend(X[mask].tolist())
-        target.c[1].extend(Y[mask].tolist())
-        target.c[2].extend(R[mask].tolist())
-        lay, hnd, ownr = strings(local.c_layer, local.c_handle, mask)
-        target.c_layer.extend(lay)
-        target.c_handle.extend(hnd)
-        target.c_owner.extend(ownr)
-        target.c_order.extend(np.broadcast_to(ins_order[:, None], mask.shape)[mask].tolist())
+        _expand_circles(target, local, refs)
     if local.s_handle:
-        X0, Y0 = xf(local.s[0], local.s[1])
-        X1, Y1 = xf(local.s[2], local.s[3])
-        CX, CY = xf(local.s[4], local.s[5])
-        rr = np.asarray(local.s[6])
-        sw = np.asarray(local.s[7])
-        is_arc = sw != 0.0
-        mask = planar[:, None] & (uniform[:, None] | ~is_arc[None, :])
-        groups = np.asarray(local.s_group)
-        base = target.n_groups + local.n_groups * np.arange(k)
-        G = np.where(groups[None, :] >= 0, groups[None, :] + base[:, None], -1)
-        target.n_groups += local.n_groups * k
-        for arr, src in zip(target.s, (X0, Y0, X1, Y1, np.where(is_arc[None, :], CX, 0.0),
-                                       np.where(is_arc[None, :], CY, 0.0),
-                                       rr[None, :] * scale[:, None], sw[None, :] * flip[:, None])):
-            arr.extend(src[mask].tolist())
-        target.s_group.extend(G[mask].tolist())
-        lay, hnd, _ = strings(local.s_layer, local.s_handle, mask)
-        target.s_layer.extend(lay)
-        target.s_handle.extend(hnd)
-        target.s_kind.extend(np.broadcast_to(np.asarray(local.s_kind, dtype=object)[None, :], mask.shape)[mask].tolist())
-        target.s_order.extend(np.broadcast_to(ins_order[:, None], mask.shape)[mask].tolist())
+        _expand_segments(target, local, refs)
     if local.t_handle:
-        X, Y = xf(local.t[0], local.t[1])
-        mask = np.broadcast_to(planar[:, None], X.shape)
-        target.t[0].extend(X[mask].tolist())
-        target.t[1].extend(Y[mask].tolist())
-        target.t_text.extend(np.broadcast_to(np.asarray(local.t_text, dtype=object)[None, :], mask.shape)[mask].tolist())
-        lay, hnd, _ = strings(local.t_layer, local.t_handle, mask)
-        target.t_layer.extend(lay)
-        target.t_handle.extend(hnd)
-    target.count += k * local.count
-    target.own += k * local.own
+        _expand_texts(target, local, refs)
+    target.count += mats.shape[0] * local.count
+    target.own += mats.shape[0] * local.own
 
 
-def _flatten(doc: Any) -> tuple[_Collector, list[AttribSet]]:
-    msp = doc.modelspace()
-    top = _Collector()
-    inserts: list[Any] = []
-    insert_order: dict[int, int] = {}
-    for k, e in enumerate(msp):
-        top.current_order = k
-        before = len(inserts)
-        _collect_entity(top, e, inserts)
-        if len(inserts) > before:
-            insert_order[id(inserts[-1])] = k
-    cache: dict[str, _Collector] = {}
-    attribs: list[AttribSet] = []
+#: One placement of a block: its transform, the reference's handle, layer and drawing order.
+_Placement = tuple[NDArray[np.float64], str, str, int]
 
-    def block_collector(name: str, stack: tuple[str, ...]) -> _Collector:
-        if name in cache:
-            return cache[name]
+
+class _Flattener:
+    """Model space of one document with its block references expanded, each block collected once."""
+
+    def __init__(self, doc: Any) -> None:
+        self.doc = doc
+        self.cache: dict[str, _Collector] = {}
+        self.insert_order: dict[int, int] = {}     # id of a model space INSERT -> drawing order
+
+    def model_space(self) -> tuple[_Collector, list[Any]]:
+        """The primitives of model space itself, and its block references in drawing order."""
+        top = _Collector()
+        inserts: list[Any] = []
+        for k, e in enumerate(self.doc.modelspace()):
+            top.current_order = k
+            before = len(inserts)
+            _collect_entity(top, e, inserts)
+            if len(inserts) > before:
+                self.insert_order[id(inserts[-1])] = k
+        return top, inserts
+
+    def block(self, name: str, stack: tuple[str, ...]) -> _Collector:
+        """The primitives of block ``name`` in its own coordinates (nested references expanded).
+
+        ``stack`` holds the blocks being collected; a block that references itself through it is
+        skipped (an empty collector), as is a reference to a block that does not exist.
+        """
+        if name in self.cache:
+            return self.cache[name]
         col = _Collector()
         if name in stack:
             log.warning("block %r references itself; skipped", name)
             return col
-        block = doc.blocks.get(name)
+        block = self.doc.blocks.get(name)
         if block is None:
             return col
         nested: list[Any] = []
@@ -584,17 +760,18 @@ def _flatten(doc: Any) -> tuple[_Collector, list[AttribSet]]:
                 continue
             _collect_entity(col, be, nested)
         for ins in nested:
-            _expand_inserts(col, [ins], stack + (name,))
-        cache[name] = col
+            self.expand_inserts(col, [ins], stack + (name,))
+        self.cache[name] = col
         return col
 
-    def _expand_inserts(target: _Collector, ins_list: list[Any], stack: tuple[str, ...]) -> None:
-        by_block: dict[str, list[tuple[NDArray[np.float64], str, str, int]]] = defaultdict(list)
+    def placements(self, ins_list: list[Any]) -> dict[str, list[_Placement]]:
+        """The placements of each block referenced in ``ins_list`` (a MINSERT gives one per cell)."""
+        by_block: dict[str, list[_Placement]] = defaultdict(list)
         for ins in ins_list:
             name = ins.dxf.name
             handle = ins.dxf.handle or ""
             layer = ins.dxf.layer
-            order = insert_order.get(id(ins), 0)
+            order = self.insert_order.get(id(ins), 0)
             try:
                 if ins.mcount > 1:
                     for vi in ins.multi_insert():
@@ -603,22 +780,45 @@ def _flatten(doc: Any) -> tuple[_Collector, list[AttribSet]]:
                     by_block[name].append((_matrix(ins), handle, layer, order))
             except Exception as err:   # a broken reference must not end the run
                 log.warning("INSERT #%s of block %r skipped: %s", handle, name, err)
-        for name, items in by_block.items():
-            local = block_collector(name, stack)
+        return by_block
+
+    def expand_inserts(self, target: _Collector, ins_list: list[Any], stack: tuple[str, ...]) -> None:
+        """Add the contents of the blocks ``ins_list`` references to ``target``, one call per block."""
+        for name, items in self.placements(ins_list).items():
+            local = self.block(name, stack)
             if local.count == 0 and not local.c_handle and not local.s_handle and not local.t_handle:
                 continue
             mats = np.stack([m for m, _, _, _ in items])
             _expand(target, local, mats, [h for _, h, _, _ in items], [lay for _, _, lay, _ in items],
                     [name] * len(items), [o for _, _, _, o in items])
 
-    _expand_inserts(top, inserts, ())
+
+def _attrib_sets(inserts: list[Any]) -> list[AttribSet]:
+    """The attributes of each block reference that has any (tags upper case, values stripped)."""
+    attribs: list[AttribSet] = []
     for ins in inserts:
         if not ins.attribs:
             continue
         tags = {a.dxf.tag.strip().upper(): a.dxf.text.strip() for a in ins.attribs}
         p = ins.dxf.insert
         attribs.append(AttribSet(ins.dxf.handle or "", float(p.x), float(p.y), tags, ins.dxf.name))
-    for col in cache.values():
+    return attribs
+
+
+def _flatten(doc: Any) -> tuple[_Collector, list[AttribSet]]:
+    """Model space of ``doc`` as primitives, block references expanded, and their attributes.
+
+    Returns
+    -------
+    tuple
+        The collector (with the findings of every block collected) and the attribute sets
+        of the top-level block references.
+    """
+    flat = _Flattener(doc)
+    top, inserts = flat.model_space()
+    flat.expand_inserts(top, inserts, ())
+    attribs = _attrib_sets(inserts)
+    for col in flat.cache.values():
         top.findings.extend(col.findings)
     return top, attribs
 
@@ -685,14 +885,14 @@ def read_drawing(path: str | Path, *, keep_document: bool = False) -> Drawing:
     was_enabled = gc.isenabled()
     gc.disable()
     try:
-        doc, recovered, findings = _load(p, data, binary)
-        col, attribs = _flatten(doc)
+        loaded = _load(p, data, binary)
+        col, attribs = _flatten(loaded.doc)
     finally:
         if was_enabled:
             gc.enable()
-    return _drawing(col, attribs, findings, path=p, sha256=hashlib.sha256(data).hexdigest(),
-                    version=version or doc.dxfversion, units=units, recovered=recovered,
-                    document=doc if keep_document else None)
+    return _drawing(col, attribs, loaded.findings, path=p, sha256=hashlib.sha256(data).hexdigest(),
+                    version=version or loaded.doc.dxfversion, units=units, recovered=loaded.recovered,
+                    rebuilt=loaded.rebuilt, document=loaded.doc if keep_document else None)
 
 
 def read_document(doc: Any, *, path: str = "<document>") -> Drawing:
@@ -708,7 +908,8 @@ def read_document(doc: Any, *, path: str = "<document>") -> Drawing:
 
 
 def _drawing(col: _Collector, attribs: list[AttribSet], findings: list[Finding], *, path: str, sha256: str,
-             version: str, units: str | None, recovered: bool, document: Any) -> Drawing:
+             version: str, units: str | None, recovered: bool, document: Any,
+             rebuilt: bool = False) -> Drawing:
     """The collected primitives as a :class:`Drawing`, entities that are not finite dropped."""
     p = path
     findings.extend(col.findings)
@@ -729,4 +930,4 @@ def _drawing(col: _Collector, attribs: list[AttribSet], findings: list[Finding],
                                 data={"skipped": n}))
     return Drawing(path=p, sha256=sha256, version=version, units=units, recovered=recovered, circles=circles,
                    segments=segments, texts=texts, attribs=attribs, findings=findings, entity_count=col.count,
-                   own_count=col.own, document=document)
+                   own_count=col.own, rebuilt=rebuilt, document=document)

@@ -32,7 +32,9 @@ class Outputs:
 
     @property
     def needs_document(self) -> bool:
-        return self.out is not None or self.overlay is not None or self.in_place
+        """Keep the document read: the DXF outputs write into it, the HTML report draws it
+        (read again, a drawing rebuilt from its raw tags would not read)."""
+        return self.out is not None or self.overlay is not None or self.in_place or self.html is not None
 
     def files(self) -> list[tuple[str, Path]]:
         """The output files with their kind (``dxf``, ``json``, ``html``); not stdout."""
@@ -106,8 +108,13 @@ def _target_problem(kind: str, p: Path, drawing: Path, spec: Path | None, force:
     return None
 
 
-def output_problems(outputs: Outputs, drawing: Path, spec: Path | None, force: bool) -> list[str]:
-    """Reasons not to write the outputs, one line each (empty: all may be written)."""
+def output_problems(outputs: Outputs, drawing: Path, spec: Path | None, force: bool, *,
+                    rebuilt: bool = False) -> list[str]:
+    """Reasons not to write the outputs, one line each (empty: all may be written).
+
+    ``rebuilt``: the drawing was read from its raw DXF tags into a new document
+    (``Drawing.rebuilt``), which must not replace the user's file (known once it is read).
+    """
     problems = []
     seen: dict[str, Path] = {}
     for kind, p in outputs.files():
@@ -121,6 +128,10 @@ def output_problems(outputs: Outputs, drawing: Path, spec: Path | None, force: b
             problems.append(problem)
     if outputs.in_place and drawing.exists() and not drawing.is_file():
         problems.append(f"{drawing}: --in-place needs a regular file")
+    if outputs.in_place and rebuilt:
+        problems.append(f"{drawing}: --in-place refused: ezdxf cannot read this file, so spanwise rebuilt "
+                        f"its entities from the raw DXF tags, and writing that copy back would replace "
+                        f"your drawing; write an annotated copy with --out instead")
     return problems
 
 
@@ -145,6 +156,8 @@ def run_check(drawing: Path, outputs: Outputs, *, spec: str | None, grip_margin:
         report = check_drawing(drawing, spec=spec, grip_margin=grip_margin, keep_document=outputs.needs_document)
     except FatalInput as err:
         raise FatalInput(problems + err.problems) from err
+    if report.model.drawing.rebuilt:
+        problems += output_problems(Outputs(in_place=outputs.in_place), drawing, None, force, rebuilt=True)
     if problems:
         raise FatalInput(problems)
     try:
