@@ -14,8 +14,10 @@ from typing import Any
 import numpy as np
 
 from physics.analysis import GripState, LoopMechanics, Results, ShaftLoad
+from physics.catalogue import find_section
 from physics.findings import Finding
 from physics.geometry import LoopGeometry
+from physics.model import Role
 
 from .route import LoopRecord, Model
 
@@ -91,6 +93,7 @@ def _pulley_row(model: Model, lp: LoopRecord, i: int, g: LoopGeometry | None, me
         "role": mech.roles[i] if mech is not None and mech.roles else p.role.value,
         "side": lp.sides[i].value,
         "wrap_deg": None if g is None else math.degrees(float(g.wrap_rad[i])),
+        "load_law": None if p.law is None or p.role is Role.DRIVER else p.law.value,
     }
     if mech is None:
         return row
@@ -173,6 +176,8 @@ def _loop_row(model: Model, results: Results, lp: LoopRecord) -> dict[str, Any]:
             "install_tension_n": mech.install_tension_n,
             "min_install_tension_n": mech.min_install_tension_n,
         })
+        if mech.peak_tension_n is not None:
+            row["peak_tension"] = _peak_dict(belt, mech)
         if mech.tensioner_setting is not None:
             row["tensioner_setting"] = mech.tensioner_setting
             row["min_tensioner_setting"] = mech.min_tensioner_setting
@@ -184,6 +189,15 @@ def _loop_row(model: Model, results: Results, lp: LoopRecord) -> dict[str, Any]:
     row["pulleys"] = [_pulley_row(model, lp, i, g, mech, moved) for i in range(len(lp.pulleys))]
     row["spans"] = [_span_row(model, lp, k, g, mech) for k in range(len(lp.pulleys))]
     return row
+
+
+def _peak_dict(belt: Any, mech: LoopMechanics) -> dict[str, Any]:
+    """The belt's peak tension over the range, where, and what it is made of and from."""
+    sec = find_section(belt.section) if belt.section else None
+    bending = sec is not None and sec.bending_kb_nm is not None
+    return {"tension_n": mech.peak_tension_n, "pulley": mech.peak_tension_pulley,
+            "parts": "tight side, centrifugal and bending" if bending else "tight side and centrifugal",
+            "source": sec.tension_source if bending else "no bending data for this belt"}
 
 
 def _shaft_row(shaft: ShaftLoad) -> dict[str, Any]:

@@ -199,7 +199,8 @@ def _physics_pulley(pid: str, center_m: tuple[float, float], radius_m: float, v:
         drag_torque_nm=v.get("drag_torque"), force_n=v.get("force"),
         force_direction=None if fd is None else (math.cos(fd), math.sin(fd)),
         pivot_m=None if pivot is None else to_m(pivot), arm_torque_nm=v.get("arm_torque"),
-        adjust=None if adj is None else (math.cos(adj), math.sin(adj)))
+        adjust=None if adj is None else (math.cos(adj), math.sin(adj)),
+        load_law=v.get("load"))
 
 
 def _physics_belt(b: BeltSpec) -> Belt:
@@ -208,8 +209,10 @@ def _physics_belt(b: BeltSpec) -> Belt:
     mu = b.friction if b.friction is not None else (sec.friction if sec else None)
     groove = b.groove_angle if b.groove_angle is not None else (sec.groove_angle_rad if sec else None)
     eff = b.effective_friction
-    if eff is None and sec is not None and b.friction is None and b.groove_angle is None:
-        eff = sec.effective_friction if sec.groove_angle_rad is not None else None
+    if eff is None and sec is not None:
+        # a section's design groove friction stands, whatever friction or groove is restated;
+        # derived as mu / sin(groove / 2) only where no section gives one
+        eff = sec.design_effective_friction
     mass = b.mass_per_length
     if mass is None and sec is not None:
         mass = sec.mass_per_length_kg_m

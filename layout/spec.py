@@ -25,6 +25,7 @@ __all__ = ["Spec", "BeltSpec", "PulleySpec", "RouteSpec", "load_spec", "parse_sp
 
 ROLES = ("driver", "driven", "idler", "tensioner")
 DIRECTIONS = ("ccw", "cw")
+LOAD_LAWS = ("constant-power", "constant-torque", "quadratic")
 TENSIONING = ("fixed", "constant")
 
 # key -> kind: a quantity kind of layout.quantity, or one of the special kinds below.
@@ -41,7 +42,7 @@ PULLEY_KEYS: dict[str, str] = {
     "direction": "direction", "speed_range": "speed_range", "orders": "orders",
     "adjust": "angle", "power": "power", "torque": "torque", "rating": "power",
     "groove_angle": "angle", "drag_torque": "torque", "force": "force",
-    "force_direction": "angle", "pivot": "point", "arm_torque": "torque",
+    "force_direction": "angle", "pivot": "point", "arm_torque": "torque", "load": "load",
 }
 TOP_KEYS = {"units", "belt_layers", "gravity", "service_factor", "keep_out_layers", "clearance",
             "belt", "pulley", "route", "tolerances", "grip_margin", "modes", "resonance_margin",
@@ -103,6 +104,7 @@ class PulleySpec:
     force_direction: float | None = None        # rad
     pivot: tuple[float, float] | None = None
     arm_torque: float | None = None             # N*m
+    load: str | None = None                     # how the load follows speed (physics.model.LoadLaw)
 
     def given(self) -> dict[str, Any]:
         """The keys this spec sets (not ``None``), without ``id`` and ``source``."""
@@ -274,6 +276,8 @@ _CONVERTERS: dict[str, Callable[[Any, bool], Any]] = {
     "role": _one_of(ROLES, f"expected one of {', '.join(ROLES)}"),
     "direction": _one_of(DIRECTIONS, "expected 'ccw' (counter-clockwise) or 'cw' (clockwise)"),
     "tensioning": _one_of(TENSIONING, "expected 'fixed' (fixed centres) or 'constant'"),
+    "load": _one_of(LOAD_LAWS, "expected 'constant-power', 'constant-torque' (conveyors, hoists) or "
+                               "'quadratic' (fans, centrifugal pumps)"),
     "point": _point,
     "speed_range": _speed_range,
     "orders": _orders,

@@ -79,12 +79,31 @@ def display_data(data: dict[str, Any]) -> dict[str, Any]:
 def _slip(lp: str, pid: str, d: dict[str, Any]) -> str:
     what = ("its slack side goes slack" if d["grip"] == "slack" or d.get("grip_utilisation") is None
             else f"grip utilisation {d['grip_utilisation']:.2f} > 1")
-    return f"loop {lp}: pulley {pid} slips: {what} at {_speed(d['speed_rad_s'])} of the source"
+    return f"loop {lp}: pulley {pid} slips: {what} at {_speed(d['speed_rad_s'])} of the source{_laws(d)}"
+
+
+def _laws(d: dict[str, Any]) -> str:
+    """Which law each load follows, for a grip message: " (loads: FAN quadratic)"."""
+    laws = d.get("load_laws") or {}
+    return f" (loads: {', '.join(f'{p} {law}' for p, law in laws.items())})" if laws else ""
 
 
 def _grip_low(lp: str, pid: str, d: dict[str, Any]) -> str:
     return (f"loop {lp}: pulley {pid} uses {d['grip_utilisation']:.2f} of its grip at {_speed(d['speed_rad_s'])} "
-            f"of the source (margin {d['grip_margin']:g})")
+            f"of the source (margin {d['grip_margin']:g}){_laws(d)}")
+
+
+def _standstill_load(pulleys: str, _: str, d: dict[str, Any]) -> str:
+    return (f"the speed range reaches standstill, where {', '.join(d['pulleys'])} held at constant power would "
+            f"need an unbounded torque; below {_speed(d['floor_rad_s'])} ({d['fraction']:.0%} of the nominal "
+            f"speed) their torque is taken at that speed: give the load law (constant-torque, quadratic) or a "
+            f"range from the lowest speed the drive runs at")
+
+
+def _speed_outside_range(pid: str, _: str, d: dict[str, Any]) -> str:
+    lo, hi = d["range_rad_s"]
+    return (f"pulley {pid}: its nominal speed {_speed(d['speed_rad_s'])} lies outside its own speed range "
+            f"{rpm(lo):.1f} to {_speed(hi)}")
 
 
 def _belt_speed(lp: str, _: str, d: dict[str, Any]) -> str:
@@ -98,16 +117,22 @@ def _slack_span(lp: str, sid: str, d: dict[str, Any]) -> str:
 
 
 def _near_critical(lp: str, sid: str, d: dict[str, Any]) -> str:
-    voc = d["v_over_c"]
-    return (f"loop {lp}: span {sid} runs at {voc:.2f} of its wave speed at {_speed(d['speed_rad_s'])} of the "
-            f"source (above {d['near_critical']:g}); its frequencies have fallen to {1 - voc ** 2:.0%} of their "
-            f"value at rest")
+    # the fraction is the physics' own, from the loop's tensioning model: 1 - (v/c)^2 under
+    # fixed centres, sqrt(1 - (v/c)^2) under constant tension or a tensioner
+    return (f"loop {lp}: span {sid} runs at {d['v_over_c']:.2f} of its wave speed at {_speed(d['speed_rad_s'])} "
+            f"of the source (above {d['near_critical']:g}); its frequencies have fallen to "
+            f"{d['frequency_fraction']:.0%} of their value at rest ({d['tensioning']} tensioning)")
 
 
 def _resonance(lp: str, sid: str, d: dict[str, Any]) -> str:
     lo, hi = d["speed_range_rad_s"]
-    return (f"loop {lp}: span {sid} mode {d['mode']} meets {d['excitation']} ({d['kind']}) from {rpm(lo):.1f} "
-            f"to {_speed(hi)} of the source, crossing at {_speed(d['speed_rad_s'])} ({d['frequency_hz']:.2f} Hz)")
+    head = (f"loop {lp}: span {sid} mode {d['mode']} meets {d['excitation']} ({d['kind']}) from {rpm(lo):.1f} "
+            f"to {_speed(hi)} of the source, ")
+    if d["crosses"]:
+        return head + f"crossing at {_speed(d['speed_rad_s'])} ({d['frequency_hz']:.2f} Hz)"
+    span = f"{d['frequency_hz']:.2f} Hz" if d["kind"] == "direct" else f"2 x {d['frequency_hz']:.2f} Hz"
+    return head + (f"closest at {_speed(d['speed_rad_s'])}, {d['gap']:.1%} apart (span {span}, excitation "
+                   f"{d['excitation_hz']:.2f} Hz); they do not cross in the speed range")
 
 
 def _sag(lp: str, sid: str, d: dict[str, Any]) -> str:
@@ -147,13 +172,17 @@ _WORDINGS: dict[str, tuple[tuple[str, ...], _Wording]] = {
     "grip-low": (("speed_rad_s", "grip_utilisation", "grip_margin"), _grip_low),
     "belt-speed": (("speed_rad_s", "speed_m_s", "max_speed_m_s"), _belt_speed),
     "slack-span": (("speed_rad_s", "quasi_static_tension_n"), _slack_span),
-    "near-critical": (("speed_rad_s", "v_over_c", "near_critical"), _near_critical),
-    "resonance": (("speed_rad_s", "speed_range_rad_s", "mode", "kind", "excitation", "frequency_hz"), _resonance),
+    "near-critical": (("speed_rad_s", "v_over_c", "near_critical", "frequency_fraction", "tensioning"),
+                      _near_critical),
+    "resonance": (("speed_rad_s", "speed_range_rad_s", "mode", "kind", "excitation", "frequency_hz", "crosses",
+                   "gap", "excitation_hz"), _resonance),
     "sag": (("sag_m", "sag_ratio", "state", "sag_limit"), _sag),
     "tensioner-lever": (("lever_m", "radius_m"), _tensioner_lever),
     "friction-derived": (("effective_friction", "friction", "groove_angle_rad"), _friction_derived),
     "length-unreachable": (("belt_length_m", "path_length_m"), _length_unreachable),
     "power-mismatch": (("loads_w",), _power_mismatch),
+    "standstill-load": (("floor_rad_s", "fraction", "pulleys"), _standstill_load),
+    "speed-outside-range": (("speed_rad_s", "range_rad_s"), _speed_outside_range),
 }
 
 #: The codes whose physics message carries SI numbers and is reworded here.

@@ -16,7 +16,7 @@ SI message; ``layout.wording`` words them in the trade's units (rpm, mm, kW).
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 from numpy.typing import NDArray
@@ -28,7 +28,7 @@ from .findings import Finding, Severity
 from . import spans as sp
 from .kinematics import Kinematics, loop_torques, solve_kinematics
 from .length import AdjustResult, nearest_stock, solve_adjust
-from .model import Drive, Loop, Role, Side, SpanEnds, Tensioning, choice
+from .model import Drive, LoadLaw, Loop, Role, Side, SpanEnds, Tensioning, choice
 from .resonance import RESONANCE_MARGIN, Band, find_bands
 from .tension import GripState
 
@@ -44,10 +44,10 @@ GRIP_MARGIN = 0.8
 #: Operating points over the speed range (plus the operating speed itself): the sweep.
 RANGE_POINTS = 200
 #: v/c above which a span is near its critical speed. Our choice: at v/c = 0.7 the span's
-#: frequencies have fallen to about half their value at rest (f ~ 1 - (v/c)**2 under
-#: constant tension), so small tension changes move them a lot.
+#: frequencies have fallen to about half their value at rest (f ~ 1 - (v/c)**2 with fixed
+#: centres, sqrt(1 - (v/c)**2) under a constant tension), so small tension changes move them a lot.
 NEAR_CRITICAL = 0.7
-#: Sag (along gravity) over span length above which a finding is raised. Our choice,
+#: Sag (square to the chord) over span length above which a finding is raised. Our choice,
 #: near the 1/64 in per inch of span (1.6 %) of the common force-deflection check.
 SAG_LIMIT = 0.02
 #: Span weight m g dh above this fraction of P is worth a note: the tension steps leave it out.
@@ -60,6 +60,16 @@ LEVER_WARN_FRACTION = 0.1
 #: A tensioner whose gain (lever or slide projection) is under this fraction of its radius
 #: cannot set the belt tension.
 GAIN_ZERO_FRACTION = 1e-12
+#: A speed range down to standstill: loads held at constant power take, below this share of
+#: the nominal speed, their torque at it (our choice; a motor runs at its torque limit there).
+STANDSTILL_FRACTION = 0.1
+#: Peak tension above this share of the section's durability tension K is a warning. Our
+#: choice: there Shigley's durability law (K / T)**b, b about 11 to 12.6, gives a few
+#: thousand belt passes, minutes of running.
+TENSION_HIGH_FRACTION = 0.5
+#: A tensioner wrapping less than this sets its spans' tension through 1 / (2 sin(wrap / 2)),
+#: over 5.7 times its force: small errors of angle or force move the tension a lot. Our choice.
+TENSIONER_MIN_WRAP_RAD = math.radians(10.0)
 #: A driver's given power may differ from what its loads take by this fraction.
 POWER_TOLERANCE = 0.02
 
@@ -169,6 +179,9 @@ class LoopMechanics:
     adjust: tuple[str, AdjustResult] | None = None
     rule: TensionRule | None = None
     dynamics: SpanDynamics | None = None
+    peak_tension_n: float | None = None          # tight side + centrifugal + bending, per strand
+    peak_tension_pulley: str | None = None       # where it is reached
+    bending_tension_n: NDArray[np.float64] | None = None   # (n,) Kb / d, where the section gives Kb
 
     def grip(self, row: int, i: int) -> GripState:
         """The grip state of pulley ``i`` at operating point ``row``."""
@@ -237,13 +250,72 @@ def loop_arrays(drive: Drive, loop: Loop) -> tuple[np.ndarray, np.ndarray, np.nd
     return c, r, t
 
 
+def _held_at_constant_power(drive: Drive, kin: Kinematics) -> list[str]:
+    """Pulleys of the driven loops whose load (or second driver) is held at constant power."""
+    out = []
+    for lid in kin.order:
+        lk = kin.loops[lid]
+        for i, pid in enumerate(lk.loop.pulleys):
+            p = drive.pulleys[pid]
+            if i != lk.driver and p.power_w is not None and (p.role is Role.DRIVER or p.law is LoadLaw.CONSTANT_POWER):
+                out.append(pid)
+    return out
+
+
+def _standstill(drive: Drive, kin: Kinematics, findings: list[Finding]) -> Kinematics:
+    """A speed range down to standstill with loads held at constant power: their torque would be
+    unbounded, so below :data:`STANDSTILL_FRACTION` of the nominal speed it is taken at that
+    speed (a ``standstill-load`` warning), whatever the number of range points."""
+    rng, nominal = kin.speed_range_rad_s, kin.source_speed_rad_s
+    if rng is None or nominal is None or min(rng) > 0:
+        return kin
+    held = _held_at_constant_power(drive, kin)
+    if not held:
+        return kin
+    floor = STANDSTILL_FRACTION * nominal
+    findings.append(Finding(Severity.WARNING, "standstill-load",
+                            f"the speed range reaches standstill, where {', '.join(held)} held at constant "
+                            f"power would need an unbounded torque; below {STANDSTILL_FRACTION:.0%} of the "
+                            f"nominal speed their torque is taken at that speed",
+                            refs=tuple(held), data={"floor_rad_s": floor, "fraction": STANDSTILL_FRACTION,
+                                                    "pulleys": held}))
+    return replace(kin, torque_floor_rad_s=floor)
+
+
+def _source_findings(drive: Drive, kin: Kinematics) -> list[Finding]:
+    """A speed given on a loaded driven pulley that nothing drives, and a nominal speed outside
+    the source's own range."""
+    out: list[Finding] = []
+    src = drive.pulleys.get(kin.source) if kin.source else None
+    if src is None:
+        return out
+    lk = next((kin.loops[lid] for lid in kin.order if src.id in kin.loops[lid].loop.pulleys), None)
+    if lk is not None and src.role is not Role.DRIVER and src.law is not None \
+            and lk.loop.pulleys[lk.driver] == src.id:
+        out.append(Finding(Severity.ERROR, "driver-missing",
+                           f"pulley {src.id} gives the speed and carries a load, but no pulley of loop "
+                           f"{lk.loop.id} is marked driver: the load cannot be balanced and is left out; "
+                           f"mark the driving pulley role = driver", refs=(src.id, lk.loop.id)))
+    rng = kin.speed_range_rad_s
+    if rng is not None and kin.source_speed_rad_s is not None and not (
+            min(rng) * (1 - 1e-9) <= kin.source_speed_rad_s <= max(rng) * (1 + 1e-9)):
+        out.append(Finding(Severity.WARNING, "speed-outside-range",
+                           f"pulley {src.id}: its nominal speed lies outside its own speed range",
+                           refs=(src.id,), data={"speed_rad_s": kin.source_speed_rad_s,
+                                                 "range_rad_s": [float(rng[0]), float(rng[1])]}))
+    return out
+
+
 def _source_speeds(kin: Kinematics, points: int) -> NDArray[np.float64]:
     if kin.source_speed_rad_s is None:
         return np.zeros(1)
     rows = [kin.source_speed_rad_s]
     if kin.speed_range_rad_s is not None:
         lo, hi = kin.speed_range_rad_s
-        rows.extend(np.linspace(lo, hi, max(points, 2)).tolist())
+        grid = np.linspace(lo, hi, max(points, 2))
+        if lo < kin.torque_floor_rad_s < hi:          # the stated lowest speed is always a point
+            grid = np.sort(np.append(grid, kin.torque_floor_rad_s))
+        rows.extend(grid.tolist())
     return np.asarray(rows, dtype=float)
 
 
@@ -275,12 +347,12 @@ def _friction(drive: Drive, loop: Loop, findings: list[Finding]) -> NDArray[np.f
         if side is Side.BACK or groove is None:
             out.append(mu)
             continue
-        if p.groove_angle_rad is None and b.effective_friction is not None:
+        if b.effective_friction is not None:        # the section's (or the spec's) groove friction
             out.append(b.effective_friction)
             continue
         eff = ten.wedge_friction(mu, groove)
         if eff > FRICTION_NOTE_ABOVE:
-            findings.append(Finding(Severity.NOTE, "friction-derived",
+            findings.append(Finding(Severity.WARNING, "friction-derived",
                                     f"loop {loop.id}, pulley {pid}: groove friction {eff:.3f} derived as "
                                     f"{mu:g} / sin({groove / 2:.4g} rad), above the usual design "
                                     f"value; give effective_friction to set it", refs=(loop.id, pid),
@@ -395,6 +467,13 @@ def _tensioner_setting(loop: Loop, g: geo.LoopGeometry, c: NDArray[np.float64], 
     i = tensioner.index
     pid = loop.pulleys[i]
     gain = _tensioner_gain(loop, g, c, r, tensioner, findings)
+    if g.wrap_rad[i] < TENSIONER_MIN_WRAP_RAD:
+        findings.append(Finding(Severity.WARNING, "tensioner-wrap",
+                                f"loop {loop.id}: tensioner {pid} wraps only {math.degrees(g.wrap_rad[i]):.3g} deg; "
+                                f"its force sets the belt tension through 1 / (2 sin(wrap / 2)) = "
+                                f"{1 / (2 * math.sin(g.wrap_rad[i] / 2)):.3g} times itself, so small errors of "
+                                f"angle or force move the tension a lot", refs=(loop.id, pid),
+                                data={"wrap_rad": float(g.wrap_rad[i])}))
     p_req = x_req + 0.5 * (delta_sf[:, i - 1] + delta_sf[:, i])
     min_p = float(max(p_req.max(), 0.0))
     min_setting = min_p * s * gain
@@ -429,7 +508,8 @@ def _stock(drive: Drive, loop: Loop, g: geo.LoopGeometry, install: float | None,
         return nearest, unstretched, None
     i, pid = adj[0]
     target = b.length_m * stretch
-    res = solve_adjust(c, r, np.asarray(loop.turns, float), i, drive.pulleys[pid].adjust, target)
+    res = solve_adjust(c, r, np.asarray(loop.turns, float), i, drive.pulleys[pid].adjust, target,
+                       unstretched_m=b.length_m)
     if res is not None:
         return nearest, unstretched, (pid, res)
     findings.append(Finding(Severity.ERROR, "length-unreachable",
@@ -437,6 +517,57 @@ def _stock(drive: Drive, loop: Loop, g: geo.LoopGeometry, install: float | None,
                             f"{b.length_m:.4f} m belt a path of {target:.4f} m", refs=(loop.id, pid),
                             data={"belt_length_m": b.length_m, "path_length_m": target}))
     return nearest, unstretched, None
+
+
+def _peak_tension(loop: Loop, r: NDArray[np.float64], T: NDArray[np.float64], findings: list[Finding]
+                  ) -> dict[str, object]:
+    """The belt's peak tension: the tight side's tension (with its centrifugal part) plus the
+    bending tension ``Kb / d`` at that pulley where the section gives ``Kb`` (Shigley's
+    Mechanical Engineering Design, 9th ed., Sec. 17-3, from memory); a ``tension-high``
+    warning above :data:`TENSION_HIGH_FRACTION` of the section's durability tension ``K``."""
+    sec = find_section(loop.belt.section) if loop.belt.section else None
+    bending = np.zeros(len(r)) if sec is None or sec.bending_kb_nm is None else sec.bending_kb_nm / (2.0 * r)
+    total = np.maximum(np.roll(T, 1, axis=1), T) + bending[None, :]
+    if not np.isfinite(total).any():
+        return {"bending_tension_n": bending}
+    k, i = np.unravel_index(int(np.nanargmax(np.where(np.isfinite(total), total, -np.inf))), total.shape)
+    peak, pid = float(total[k, i]), loop.pulleys[i]
+    if sec is not None and sec.fatigue_k_n and peak > TENSION_HIGH_FRACTION * sec.fatigue_k_n:
+        passes = (sec.fatigue_k_n / peak) ** sec.fatigue_b
+        findings.append(Finding(Severity.WARNING, "tension-high",
+                                f"loop {loop.id}: peak belt tension {peak:.0f} N at pulley {pid} (tight side, "
+                                f"centrifugal and bending) is over {TENSION_HIGH_FRACTION:.0%} of the "
+                                f"section's durability tension K = {sec.fatigue_k_n:.0f} N: about "
+                                f"{passes:.3g} belt passes of life ({sec.tension_source})",
+                                refs=(loop.id, pid), data={"peak_tension_n": peak, "fatigue_k_n": sec.fatigue_k_n,
+                                                           "passes": passes}))
+    return {"peak_tension_n": peak, "peak_tension_pulley": pid, "bending_tension_n": bending}
+
+
+def _span_rise_weight(g: geo.LoopGeometry, mass: float, gravity: tuple[float, float] | None) -> NDArray[np.float64]:
+    """Each span's weight times its rise, ``m g (z_end - z_start)`` (N; z up, against gravity)."""
+    if gravity is None or not mass:
+        return np.zeros(len(g.span_length_m))
+    up = -np.asarray(gravity, dtype=float)
+    return mass * sp.G0 * ((g.span_end_m - g.span_start_m) @ up)
+
+
+def _end_tensions(g: geo.LoopGeometry, P: NDArray[np.float64], mass: float, gravity: tuple[float, float] | None
+                  ) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
+    """Tensions where the belt arrives at and leaves each pulley, ``(K, n)`` each.
+
+    A span's tension grows with height by its weight per length (cable statics: dT = w dz,
+    Irvine, *Cable Structures*, 1981, ch. 1, from memory); with ``P`` the span's mean
+    tension, its ends carry ``P -+ w dz / 2``. Where no span's weight over its rise reaches
+    :data:`SPAN_WEIGHT_NOTE` of its tension, the spans' mean tensions are used as they are.
+    """
+    rise = _span_rise_weight(g, mass, gravity)                    # (n,)
+    P_start = P_end = P
+    with np.errstate(invalid="ignore"):
+        heavy = np.any(np.abs(rise)[None, :] > SPAN_WEIGHT_NOTE * np.abs(P))
+    if heavy:
+        P_start, P_end = P - rise[None, :] / 2.0, P + rise[None, :] / 2.0
+    return np.roll(P_end, 1, axis=1), P_start
 
 
 def _loop_mechanics(drive: Drive, loop: Loop, g: geo.LoopGeometry, kin: Kinematics,
@@ -477,7 +608,7 @@ def _loop_mechanics(drive: Drive, loop: Loop, g: geo.LoopGeometry, kin: Kinemati
         static_P = np.full(n, np.nan)
         install = min_install = rule = None
     T = P + mass * (speed * speed)[:, None]
-    util, state = ten.grip(P_sf, Q, mu, g.wrap_rad)
+    util, state = ten.grip_at_ends(*_end_tensions(g, P_sf, mass, opts.gravity), Q, mu, g.wrap_rad)
     hub = ten.hub_loads(P, g, b.strands)
     max_hub, max_hub_at = _peak(np.hypot(hub[..., 0], hub[..., 1]), w_src)
     static_hub = ten.hub_loads(static_P[None, :], g, b.strands)[0]
@@ -496,7 +627,8 @@ def _loop_mechanics(drive: Drive, loop: Loop, g: geo.LoopGeometry, kin: Kinemati
         static_quasi_static_n=static_P, static_hub_n=static_hub, static_frequency_hz=freq, mu=mu, mass_kg_m=mass,
         install_tension_n=install, min_install_tension_n=min_install, tensioner_setting=st.setting,
         min_tensioner_setting=st.min_setting, roles=_effective_roles(drive, kin, loop), stock_nearest_m=nearest,
-        unstretched_length_m=unstretched, adjust=adjust, rule=rule, dynamics=dynamics)
+        unstretched_length_m=unstretched, adjust=adjust, rule=rule, dynamics=dynamics,
+        **_peak_tension(loop, r, T, findings))
 
 
 def _excitations(drive: Drive, loop: Loop, omega: NDArray[np.float64], speed: NDArray[np.float64],
@@ -540,21 +672,24 @@ def _bands(drive: Drive, loop: Loop, g: geo.LoopGeometry, kin: Kinematics, rule:
 
 def _sags(loop: Loop, g: geo.LoopGeometry, P0: NDArray[np.float64], static_P: NDArray[np.float64],
           gravity: tuple[float, float]) -> dict[str, NDArray[np.float64]]:
-    """Catenary and parabolic sag of every span, running (``P0``) and at rest, and the
-    catenary sag over the span's length."""
+    """Sag of every span, running (``P0``) and at rest: the largest deflection from the chord,
+    square to it in the drawing plane, under the gravity component across the span (exact
+    catenary; the parabola ``w cos(beta) L**2 / (8 P)`` beside it), and over the span's length."""
     chord = g.span_end_m - g.span_start_m
     gv = np.asarray(gravity, dtype=float)
     side = np.array([gv[1], -gv[0]])
     chord_len = np.hypot(chord[:, 0], chord[:, 1])
     cosb = np.abs(chord @ side) / chord_len
     weight = (loop.belt.mass_per_length_kg_m or 0.0) * sp.G0
-    sag = sp.catenary_sag(chord, gv, weight, P0 * cosb)
-    static_sag = sp.catenary_sag(chord, gv, weight, static_P * cosb)
+    # the catenary's largest distance from the chord along gravity, times cos(beta): the same
+    # point's distance square to the chord (the deflection a fitter sees)
+    sag = sp.catenary_sag(chord, gv, weight, P0 * cosb) * cosb
+    static_sag = sp.catenary_sag(chord, gv, weight, static_P * cosb) * cosb
     with np.errstate(divide="ignore", invalid="ignore"):
         ratio, static_ratio = sag / g.span_length_m, static_sag / g.span_length_m
     return {"sag_m": sag, "static_sag_m": static_sag,
-            "parabolic_sag_m": sp.parabolic_sag(weight, chord_len, P0),
-            "static_parabolic_sag_m": sp.parabolic_sag(weight, chord_len, static_P),
+            "parabolic_sag_m": sp.parabolic_sag(weight * cosb, chord_len, P0),
+            "static_parabolic_sag_m": sp.parabolic_sag(weight * cosb, chord_len, static_P),
             "sag_ratio": ratio, "static_sag_ratio": static_ratio}
 
 
@@ -580,6 +715,8 @@ def _grip_findings(drive: Drive, loop: Loop, mech: LoopMechanics, opts: Options,
     """``slip`` (the first operating point where grip fails), else ``grip-low`` (the
     worst utilisation above the margin), and ``load-missing``, per pulley."""
     w = mech.source_speed_rad_s
+    laws = {pid: drive.pulleys[pid].law.value for pid in loop.pulleys
+            if drive.pulleys[pid].role is not Role.DRIVER and drive.pulleys[pid].law is not None}
     for i, pid in enumerate(loop.pulleys):
         st = mech.grip_state[:, i]
         u = np.where(np.isnan(mech.utilisation[:, i]), -np.inf, mech.utilisation[:, i])
@@ -592,7 +729,7 @@ def _grip_findings(drive: Drive, loop: Loop, mech: LoopMechanics, opts: Options,
                                     f"loop {loop.id}: pulley {pid} slips: {what} at {w[k]:.1f} rad/s "
                                     f"of the source", refs=(loop.id, pid),
                                     data={"speed_rad_s": float(w[k]), "grip": state.label,
-                                          "grip_utilisation": util}))
+                                          "grip_utilisation": util, "load_laws": laws}))
         elif (u > opts.grip_margin).any():
             k = int(np.argmax(u))
             findings.append(Finding(Severity.WARNING, "grip-low",
@@ -600,7 +737,7 @@ def _grip_findings(drive: Drive, loop: Loop, mech: LoopMechanics, opts: Options,
                                     f"{w[k]:.1f} rad/s of the source (margin {opts.grip_margin:g})",
                                     refs=(loop.id, pid),
                                     data={"speed_rad_s": float(w[k]), "grip_utilisation": float(u[k]),
-                                          "grip_margin": opts.grip_margin}))
+                                          "grip_margin": opts.grip_margin, "load_laws": laws}))
         p = drive.pulleys[pid]
         if (p.role is Role.DRIVEN and p.power_w is None and p.torque_nm is None
                 and mech.roles[i] == Role.DRIVEN.value and not np.any(mech.torque_nm[:, i])):
@@ -650,34 +787,69 @@ def _loop_findings(drive: Drive, loop: Loop, mech: LoopMechanics, opts: Options,
 
 def _near_critical_findings(loop: Loop, mech: LoopMechanics, dyn: SpanDynamics, opts: Options,
                             findings: list[Finding]) -> None:
+    """``near-critical``: a span's ``v/c`` over the threshold, at its highest, with what its
+    string frequencies have fallen to under the loop's own tensioning model."""
     w = mech.source_speed_rad_s
     for k, sid in enumerate(loop.span_ids):
         col = np.where(np.isfinite(dyn.v_over_c[:, k]), dyn.v_over_c[:, k], -np.inf)
         if not (col > opts.near_critical).any() or not (mech.quasi_static_n[:, k] > 0).all():
             continue
         j = int(np.argmax(col))
+        # What the string frequencies have fallen to at v/c, against their value at rest
+        # under the same setting. Moving string (Wickert and Mote, "Classical vibration
+        # analysis of axially moving continua", J. Appl. Mech. 57, 1990, from memory):
+        # f_n = n (c^2 - v^2) / (2 L c), c^2 = T / m, T = P + m v^2, so c^2 - v^2 = P / m.
+        # - fixed centres (TensionRule: P = level - mean(delta) - m v^2 + delta): T = P + m v^2
+        #   keeps its value at rest while P falls by m v^2; c is fixed, and
+        #   f_n / f_n(0) = (c^2 - v^2) / c^2 = 1 - (v/c)^2;
+        # - constant tension or a tensioner (P = level - ... + delta, no m v^2): P keeps its
+        #   value at rest and T grows; f_n = n P / (2 L sqrt(m T)) against n P / (2 L sqrt(m P)):
+        #   f_n / f_n(0) = sqrt(P / T) = sqrt(1 - m v^2 / T) = sqrt(1 - (v/c)^2).
+        drop = max(1.0 - float(col[j]) ** 2, 0.0)
+        fallen = drop if mech.tensioning is Tensioning.FIXED else math.sqrt(drop)
         findings.append(Finding(Severity.WARNING, "near-critical",
                                 f"loop {loop.id}: span {sid} runs at {col[j]:.2f} of its wave speed at "
                                 f"{w[j]:.1f} rad/s of the source (above {opts.near_critical:g}); its "
-                                f"frequencies have fallen to {1 - col[j] ** 2:.0%} of their value at rest",
+                                f"frequencies have fallen to {fallen:.0%} of their value at rest "
+                                f"({mech.tensioning.value} tensioning)",
                                 refs=(loop.id, sid),
                                 data={"v_over_c": float(col[j]), "speed_rad_s": float(w[j]),
-                                      "near_critical": opts.near_critical}))
+                                      "near_critical": opts.near_critical, "frequency_fraction": fallen,
+                                      "tensioning": mech.tensioning.value}))
 
 
 def _resonance_findings(loop: Loop, dyn: SpanDynamics, findings: list[Finding]) -> None:
+    """``resonance``: one finding per band, ranked closest relative gap first, then lower
+    mode. A band of several equal excitation lines (equal pulleys) names them all and
+    refers to each of their pulleys (a band of one line refers to its loop and span only,
+    its pulley is in ``data["pulleys"]``). A band where the excitation never meets the span's
+    frequency (it only touches an end of the range) claims no crossing: ``speed_rad_s``
+    is its closest approach and ``gap`` the relative gap there."""
     sids = loop.span_ids
-    for band in dyn.bands:
+    ranked = sorted(dyn.bands, key=lambda b: (b.margin_left, b.mode, b.span, b.kind, b.speed_lo, b.excitation))
+    for band in ranked:
         sid = sids[band.span]
+        names = band.excitations or (band.excitation,)
+        # pulley excitations are named "<pulley> x<order>" by _excitations
+        pulleys = tuple(dict.fromkeys(p for p in (nm.rsplit(" x", 1)[0] for nm in names) if p in loop.pulleys))
+        what = ", ".join(names)
+        span_f = (f"{band.frequency_hz:.2f} Hz" if band.kind == "direct"
+                  else f"2 x {band.frequency_hz:.2f} Hz")
+        if band.crosses:
+            where = f"crossing at {band.nearest:.2f} rad/s ({band.frequency_hz:.2f} Hz)"
+        else:
+            where = (f"closest at {band.nearest:.2f} rad/s, {band.margin_left:.1%} apart (span {span_f}, "
+                     f"excitation {band.excitation_hz:.2f} Hz); they do not cross in the speed range")
         findings.append(Finding(
             Severity.WARNING, "resonance",
-            f"loop {loop.id}: span {sid} mode {band.mode} meets {band.excitation} ({band.kind}) from "
-            f"{band.speed_lo:.1f} to {band.speed_hi:.1f} rad/s of the source, "
-            f"crossing at {band.crossing:.2f} rad/s ({band.frequency_hz:.2f} Hz)",
-            refs=(loop.id, sid),
-            data={"speed_rad_s": band.crossing, "speed_range_rad_s": [band.speed_lo, band.speed_hi],
-                  "mode": band.mode, "kind": band.kind, "excitation": band.excitation,
-                  "frequency_hz": band.frequency_hz, "margin_left": band.margin_left}))
+            f"loop {loop.id}: span {sid} mode {band.mode} meets {what} ({band.kind}) from "
+            f"{band.speed_lo:.1f} to {band.speed_hi:.1f} rad/s of the source, {where}",
+            refs=(loop.id, sid, *(pulleys if len(names) > 1 else ())),
+            data={"speed_rad_s": band.nearest, "speed_range_rad_s": [band.speed_lo, band.speed_hi],
+                  "crosses": band.crosses, "gap": band.margin_left,
+                  "mode": band.mode, "kind": band.kind, "excitation": what, "excitations": list(names),
+                  "pulleys": list(pulleys), "frequency_hz": band.frequency_hz,
+                  "excitation_hz": band.excitation_hz, "margin_left": band.margin_left}))
 
 
 def _sag_findings(loop: Loop, dyn: SpanDynamics, opts: Options, findings: list[Finding]) -> None:
@@ -708,8 +880,8 @@ def _span_weight_findings(loop: Loop, g: geo.LoopGeometry, mech: LoopMechanics, 
         if np.isfinite(P0) and P0 > 0 and weight[k] > SPAN_WEIGHT_NOTE * P0:
             findings.append(Finding(Severity.NOTE, "span-weight",
                                     f"loop {loop.id}: span {sid} weighs {weight[k]:.1f} N over its rise, "
-                                    f"over {SPAN_WEIGHT_NOTE:.0%} of its tension; the tension steps leave "
-                                    f"span weight out", refs=(loop.id, sid),
+                                    f"over {SPAN_WEIGHT_NOTE:.0%} of its tension; the grip check takes the "
+                                    f"tensions at its ends with the weight", refs=(loop.id, sid),
                                     data={"weight_n": float(weight[k]), "quasi_static_tension_n": float(P0)}))
 
 
@@ -829,6 +1001,8 @@ def analyse(drive: Drive, options: Options = Options()) -> Results:
     geoms = _geometries(drive, findings)
     kin = solve_kinematics(drive)
     findings.extend(kin.findings)
+    kin = _standstill(drive, kin, findings)
+    findings.extend(_source_findings(drive, kin))
     w_src = _source_speeds(kin, options.range_points)
     torques = loop_torques(drive, kin, w_src) if kin.source is not None and kin.order else {}
     if kin.source is None and drive.loops:

@@ -52,6 +52,14 @@ class Section:
         Usual upper limit of belt speed.
     stock_lengths_m
         Standard pitch (datum) lengths, or ``None`` where belts are made to length.
+    bending_kb_nm
+        Bending tension constant: the tension from bending round a pulley of pitch diameter
+        ``d`` is ``Kb / d`` (N*m, so that Kb / d is in N); ``None`` where no data is known.
+    fatigue_k_n, fatigue_b
+        Durability constants of the section: a belt whose peak tension ``T`` recurs at
+        each pass lasts about ``(K / T)**b`` passes.
+    tension_source
+        Where the three tension constants come from.
     source
         Standard, book or "from memory", for every number of the row.
     """
@@ -69,6 +77,10 @@ class Section:
     density_kg_m3: float | None = None
     stock_lengths_m: tuple[float, ...] | None = None
     design_effective_friction: float | None = None
+    bending_kb_nm: float | None = None
+    fatigue_k_n: float | None = None
+    fatigue_b: float | None = None
+    tension_source: str = ""
 
     @property
     def effective_friction(self) -> float:
@@ -148,10 +160,33 @@ _FLAT = [
 _STOCK = {"Z": (400, 3150), "A": (630, 5000), "B": (900, 8000), "C": (1400, 10000), "D": (2800, 12500),
           "SPZ": (630, 3550), "SPA": (800, 4500), "SPB": (1250, 8000), "SPC": (2000, 12500)}
 
+_LBF, _LBF_IN = 4.4482216, 0.11298483
+#: Bending constant Kb (lbf*in) and durability K (lbf), b of the RMA sections: Budynas and
+#: Nisbett, Shigley's Mechanical Engineering Design, 9th ed., Tables 17-16 and 17-17 (from memory).
+_RMA = {"A": (220, 674, 11.089), "B": (576, 1193, 10.926), "C": (1600, 2038, 11.173),
+        "D": (5680, 4208, 11.105), "3V": (230, 728, 12.464), "5V": (1098, 1654, 12.593),
+        "8V": (4830, 3638, 12.629)}
+#: ISO sections taken as an RMA section: the classical ones by name; the narrow ones as the RMA
+#: narrow section of nearest top width, SPA (12.7 mm) as the narrower 3V (a rough, cautious bound).
+_AS_RMA = {"A": "A", "B": "B", "C": "C", "D": "D", "SPZ": "3V", "SPA": "3V", "SPB": "5V", "SPC": "8V"}
+_SRC_TENSION = ("Kb, K and b: Shigley's Mechanical Engineering Design, 9th ed., Tables 17-16 and "
+                "17-17 (from memory), for section {rma}")
+
+
+def _tension_data(name: str) -> dict[str, float | str]:
+    rma = _AS_RMA.get(name)
+    if rma is None:
+        return {}
+    kb, k, b = _RMA[rma]
+    src = _SRC_TENSION.format(rma=rma) + ("" if rma == name else f", taken for {name}")
+    return {"bending_kb_nm": kb * _LBF_IN, "fatigue_k_n": k * _LBF, "fatigue_b": b, "tension_source": src}
+
+
 SECTIONS: dict[str, Section] = {}
 for _n, _f, _d, _h, _w, _m, _g, _mu, _v in _ROWS:
     SECTIONS[_n] = Section(_n, _f, _d * 1e-3, _h * 1e-3, _w * 1e-3, _m, _g * _DEG, _mu, float(_v),
-                           _SRC_V, stock_lengths_m=_r20(*_STOCK[_n]), design_effective_friction=0.5123)
+                           _SRC_V, stock_lengths_m=_r20(*_STOCK[_n]), design_effective_friction=0.5123,
+                           **_tension_data(_n))
 for _n, _d, _h, _p, _m in _RIBS:
     SECTIONS[_n] = Section(_n, "v-ribbed", _d * 1e-3, _h * 1e-3, _p * 1e-3, _m, 40 * _DEG, 0.25,
                            50.0, _SRC_RIB, stock_lengths_m=_r20(500, 3150), design_effective_friction=0.5)

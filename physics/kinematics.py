@@ -18,7 +18,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from .findings import Finding, Severity
-from .model import Drive, Loop, Pulley, Role
+from .model import Drive, LoadLaw, Loop, Pulley, Role
 
 __all__ = ["LoopKinematics", "Kinematics", "Travel", "loop_shaft_graph", "travel_plan", "solve_kinematics",
            "loop_torques"]
@@ -59,6 +59,8 @@ class Kinematics:
     loops: dict[str, LoopKinematics] = field(default_factory=dict)
     order: tuple[str, ...] = ()                 # loops from the source outwards
     findings: tuple[Finding, ...] = ()
+    #: below this source speed, loads held at constant power take their torque at it (0: none)
+    torque_floor_rad_s: float = 0.0
 
 
 def _shaft_of(drive: Drive) -> dict[str, int]:
@@ -237,45 +239,60 @@ def loop_torques(drive: Drive, kin: Kinematics, source_speed: NDArray[np.float64
                  ) -> dict[str, NDArray[np.float64]]:
     """Torque on every pulley of every loop (whole set of strands), shape ``(K, n)``.
 
-    ``source_speed`` is an array of source speeds (rad/s, magnitudes). Loads given as
-    power keep their power over the range, loads given as torque keep their torque.
-    Loops are solved from the far end back to the source, so that each shaft passes on
-    what its downstream loops and its own load take.
+    ``source_speed`` is an array of source speeds (rad/s, magnitudes). A driven pulley's load
+    follows its :class:`~physics.model.LoadLaw` from its value at the nominal speed: constant
+    power, constant torque, or torque rising with the square of speed. Loads held at constant
+    power (and the power a shaft passes on) below the source speed ``kin.torque_floor_rad_s``
+    take their torque at that speed: a constant power at standstill needs an unbounded torque.
+    Loops are solved from the far end back to the source, so that each shaft passes on what
+    its downstream loops and its own load take.
     """
     w_src = np.asarray(source_speed, dtype=float).reshape(-1)
+    w_floor = np.maximum(w_src, kin.torque_floor_rad_s)
     torques: dict[str, NDArray[np.float64]] = {}
     driver_power: dict[str, NDArray[np.float64]] = {}
     for lid in reversed(kin.order):
         lk = kin.loops[lid]
         lp = lk.loop
         n = len(lp.pulleys)
-        w = np.abs(lk.omega_per_source)[None, :] * w_src[:, None]          # (K, n)
+        per_source = np.abs(lk.omega_per_source)
         Q = np.zeros((w_src.size, n))
         with np.errstate(divide="ignore", invalid="ignore"):
             for i, pid in enumerate(lp.pulleys):
                 if i == lk.driver:
                     continue
-                p = drive.pulleys[pid]
-                q = np.zeros(w_src.size)
-                if p.role is Role.DRIVER:
-                    if p.power_w is not None:
-                        q = q + p.power_w / w[:, i]
-                    elif p.torque_nm is not None:
-                        q = q + p.torque_nm
-                else:
-                    if p.power_w is not None:
-                        q = q - p.power_w / w[:, i]
-                    elif p.torque_nm is not None:
-                        q = q - p.torque_nm
-                    if p.drag_torque_nm is not None:
-                        q = q - p.drag_torque_nm
+                w_i = per_source[i] * w_floor                      # (K,) floored for power over speed
+                q = _load_torque(drive.pulleys[pid], per_source[i] * w_src, w_i,
+                                 per_source[i] * (kin.source_speed_rad_s or 0.0))
                 for down in lk.downstream[i]:
-                    q = q - driver_power[down] / w[:, i]
+                    q = q - driver_power[down] / w_i
                 Q[:, i] = np.where(np.isfinite(q), q, 0.0)
         r = np.asarray([drive.pulleys[p].radius_m for p in lp.pulleys])
         others = np.delete(np.arange(n), lk.driver)
         Q[:, lk.driver] = -r[lk.driver] * np.sum(Q[:, others] / r[others], axis=1)
         # the balancing driver's own shaft may feed later loops too (a jackshaft driver)
-        driver_power[lid] = Q[:, lk.driver] * w[:, lk.driver]
+        driver_power[lid] = Q[:, lk.driver] * (per_source[lk.driver] * w_floor)
         torques[lid] = Q
     return torques
+
+
+def _load_torque(p: Pulley, w: NDArray[np.float64], w_floor: NDArray[np.float64], w_nominal: float
+                 ) -> NDArray[np.float64]:
+    """A pulley's own torque at speeds ``w`` (+ driving, - taking power out): a second driver's
+    power or torque as given, or a driven load by its law from its nominal value, plus drag."""
+    q = np.zeros(w.size)
+    law = p.law
+    if p.role is Role.DRIVER:                   # a second motor: its power or torque as given
+        return q + (p.power_w / w_floor if p.power_w is not None else (p.torque_nm or 0.0))
+    if law is not None:
+        power = p.power_w if p.power_w is not None else p.torque_nm * w_nominal
+        torque = p.torque_nm if p.torque_nm is not None else (p.power_w / w_nominal if w_nominal > 0 else 0.0)
+        if law is LoadLaw.CONSTANT_POWER:
+            q = q - power / w_floor
+        elif law is LoadLaw.QUADRATIC and w_nominal > 0:
+            q = q - torque * (w / w_nominal) ** 2
+        else:
+            q = q - torque
+    if p.drag_torque_nm is not None:
+        q = q - p.drag_torque_nm
+    return q

@@ -118,11 +118,15 @@ def _root_between(f, a: float, fa: float, b: float, samples: int = 64) -> float 
 
 
 def solve_adjust(centers_m: ArrayLike, radii_m: ArrayLike, turns: ArrayLike, index: int,
-                 direction: ArrayLike, target_length_m: float, *,
+                 direction: ArrayLike, target_length_m: float, *, unstretched_m: float | None = None,
                  install: float = INSTALL_ALLOWANCE, take_up: float = TAKE_UP_ALLOWANCE) -> AdjustResult | None:
     """Move pulley ``index`` along ``direction`` until the exact path length is the target.
 
-    Returns ``None`` when no position along the slide gives that length.
+    ``target_length_m`` is the running path (the belt stretched by its install tension);
+    ``unstretched_m`` the belt's own length (default: the target). The belt goes on a path
+    shorter than its unstretched length by ``install`` (it is slack then, so it does not
+    stretch), and the take-up reaches a running path ``take_up`` longer than the target.
+    Returns ``None`` when no position along the slide gives the running length.
 
     Examples
     --------
@@ -143,7 +147,7 @@ def solve_adjust(centers_m: ArrayLike, radii_m: ArrayLike, turns: ArrayLike, ind
     s = offset(target_length_m)
     if s is None:
         return None
-    s_in = offset(target_length_m * (1.0 - install))
+    s_in = offset((target_length_m if unstretched_m is None else unstretched_m) * (1.0 - install))
     s_up = offset(target_length_m * (1.0 + take_up))
     return AdjustResult(s, s_in, s_up, target_length_m)
 

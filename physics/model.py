@@ -10,7 +10,7 @@ from dataclasses import dataclass, field
 from enum import Enum, StrEnum
 from typing import TypeVar
 
-__all__ = ["Role", "Side", "Tensioning", "SpanEnds", "choice", "Pulley", "Belt", "Loop", "Drive"]
+__all__ = ["Role", "Side", "Tensioning", "SpanEnds", "LoadLaw", "choice", "Pulley", "Belt", "Loop", "Drive"]
 
 _E = TypeVar("_E", bound=Enum)
 
@@ -42,6 +42,20 @@ class Tensioning(StrEnum):
     FIXED = "fixed"
     CONSTANT = "constant"
     TENSIONER = "tensioner"
+
+
+class LoadLaw(StrEnum):
+    """How a driven pulley's load follows its speed over the speed range.
+
+    The load is given (as power or torque) at the nominal speed. ``constant-power``: the
+    power stays (torque falls as 1/speed: machine tools, winders); ``constant-torque``: the
+    torque stays (conveyors, hoists, positive-displacement pumps); ``quadratic``: the torque
+    rises with the square of speed (fans, centrifugal pumps: the affinity laws).
+    """
+
+    CONSTANT_POWER = "constant-power"
+    CONSTANT_TORQUE = "constant-torque"
+    QUADRATIC = "quadratic"
 
 
 class SpanEnds(StrEnum):
@@ -122,9 +136,22 @@ class Pulley:
     pivot_m: tuple[float, float] | None = None
     arm_torque_nm: float | None = None
     adjust: tuple[float, float] | None = None  # unit direction the pulley may slide along
+    load_law: LoadLaw | None = None             # how a driven load follows speed; None: as given
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "role", choice(Role, self.role, f"Pulley({self.id!r}).role"))
+        if self.load_law is not None:
+            object.__setattr__(self, "load_law", choice(LoadLaw, self.load_law, f"Pulley({self.id!r}).load_law"))
+
+    @property
+    def law(self) -> LoadLaw | None:
+        """The law its load follows: the one given, else constant power for a load given as
+        power and constant torque for one given as torque; None without a load."""
+        if self.power_w is None and self.torque_nm is None:
+            return None
+        if self.load_law is not None:
+            return self.load_law
+        return LoadLaw.CONSTANT_POWER if self.power_w is not None else LoadLaw.CONSTANT_TORQUE
 
 
 @dataclass(frozen=True, slots=True)

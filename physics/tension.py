@@ -163,7 +163,14 @@ def grip(P: NDArray[np.float64], Q: NDArray[np.float64], mu: NDArray[np.float64]
     State (:class:`GripState` values): ``NO_TORQUE``, ``OK`` (utilisation <= 1), ``SLIP``,
     ``SLACK`` (slack side at or below zero: no ratio exists; utilisation NaN).
     """
-    P_arr = np.roll(P, 1, axis=1)
+    return grip_at_ends(np.roll(P, 1, axis=1), P, Q, mu, wrap_rad)
+
+
+def grip_at_ends(P_arrive: NDArray[np.float64], P_leave: NDArray[np.float64], Q: NDArray[np.float64],
+                 mu: NDArray[np.float64], wrap_rad: NDArray[np.float64]) -> tuple[NDArray[np.float64], NDArray[np.int8]]:
+    """:func:`grip` from the tensions where the belt arrives at and leaves each pulley ``(K, n)``
+    (they differ from the spans' mean tensions where a span's weight changes its tension)."""
+    P_arr, P = P_arrive, P_leave
     tight = np.maximum(P_arr, P)
     slack = np.minimum(P_arr, P)
     loaded = np.abs(Q) > 0
