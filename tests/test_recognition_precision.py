@@ -245,3 +245,19 @@ def test_a_route_for_a_drawn_loop_is_ignored(tmp, undamaged):
     (w,) = [f for f in rep.findings if f.code == "route-ignored"]
     assert w.severity.value == "warning" and w.refs == ("EXTRA",)
     _same_numbers(undamaged, rep)
+
+
+def test_an_impossible_route_of_the_speed_source_is_one_error(tmp):
+    # three pulleys in a row routed A, C, B with B on the back: the path would cross itself
+    def build(msp: Any) -> None:
+        for x, name in ((0.0, "A"), (300.0, "B"), (600.0, "C")):
+            msp.add_circle((x, 0.0), 50.0)
+            msp.add_text(name, dxfattribs={"insert": (x, 0.0), "height": 10})
+
+    path = _write(tmp, "route.dxf", build)
+    path.with_suffix(".spanwise.toml").write_text(
+        'units = "mm"\n[pulley.A]\nrole = "driver"\nspeed = "1450 rpm"\n'
+        '[route.R]\npulleys = ["A", "C", "B"]\nback = ["C"]\n')
+    rep = check_drawing(path)
+    errors = [f for f in rep.findings if f.severity.value == "error"]
+    assert [f.code for f in errors] == ["route-impossible"], [f.message for f in errors]
