@@ -46,6 +46,9 @@ def _parser() -> argparse.ArgumentParser:
     _watch_parser(sub)
     _strip_parser(sub)
     _suggest_parser(sub)
+    from .audit_cli import add_audit_parser
+
+    add_audit_parser(sub, _CAUTION)
     cat = sub.add_parser("catalog", help="list the belt sections spanwise knows")
     cat.add_argument("--json", action="store_true", help="print the catalogue as JSON")
     return p
@@ -121,11 +124,15 @@ def _suggest_parser(sub: Any) -> None:
     s.add_argument("--side", choices=("back", "inside"), default="back",
                    help="press on the back of the belt from outside the loop (default) or from inside")
     s.add_argument("--region", metavar="LAYER", help="allowed area for the idler's centre: closed polylines on LAYER")
-    s.add_argument("--count", type=int, default=3, help="how many positions to give (default 3)")
+    s.add_argument("--count", type=int, default=3, metavar="N", help="how many positions to give at most (default 3)")
+    s.add_argument("--clearance", metavar="LENGTH",
+                   help="least gap between the idler and every pulley and other span, with a unit, e.g. '8 mm' "
+                        "(default: the belt's height where its section gives it, else 5 mm)")
     s.add_argument("--spec", help="spec file (default: NAME.spanwise.toml beside the drawing)")
     s.add_argument("--out", metavar="OUT.dxf", help="write a copy of the drawing with the suggestions drawn")
     s.add_argument("--json", metavar="OUT.json", help="write the suggestions as JSON")
     s.add_argument("--force", action="store_true", help="overwrite output files that spanwise did not write")
+    s.add_argument("--quiet", "-q", action="store_true", help="print the suggestion rows only")
 
 
 def _fatal(lines: list[str]) -> int:
@@ -247,26 +254,20 @@ def _suggest(args: argparse.Namespace) -> int:
     from physics.model import Side
 
     from .errors import FatalInput
-    from .idler import find_span, region_polygons, suggest, suggestion_dict, write_suggestions
+    from .idler import (console_lines, find_span, length_option, place, placement_dict, region_polygons,
+                        suggestion_dict, write_suggestions)
     from .output import write_atomic
-    from .runner import _is_our_json
     from .pipeline import check_drawing
-    from .quantity import QuantityError, parse_quantity
     from .report import dumps
+    from .runner import _is_our_json
 
     src = Path(args.drawing)
     out = Path(args.out) if args.out else None
     out_json = Path(args.json) if args.json else None
     problems = _output_problems(out, src, args.force)
     problems += _output_problems(out_json, src, args.force, ours=bool(out_json and _is_our_json(out_json)))
-    radius = None
-    if args.diameter is not None:
-        try:
-            radius = parse_quantity(args.diameter, "length") / 2
-            if radius <= 0:
-                raise QuantityError("expected a diameter greater than 0")
-        except QuantityError as err:
-            problems.append(f"--diameter: {err}")
+    diameter = length_option("--diameter", args.diameter, problems, positive=True)
+    clearance = length_option("--clearance", args.clearance, problems, positive=False)
     if args.count < 1:
         problems.append(f"--count {args.count}: expected at least 1")
     try:
@@ -276,37 +277,24 @@ def _suggest(args: argparse.Namespace) -> int:
     except FatalInput as err:
         problems += err.problems
     if problems:
-        for line in problems:
-            print(f"spanwise: {line}", file=sys.stderr)
-        return EXIT_FATAL
+        return _fatal(problems)
     try:
-        found = suggest(checked, ref, radius_m=radius, side=Side(args.side), region=region, count=args.count)
+        placement = place(checked, ref, radius_m=None if diameter is None else diameter / 2, side=Side(args.side),
+                          region=region, count=args.count, clearance_m=clearance)
     except ValueError as err:
-        print(f"spanwise: --span {args.span}: {err}", file=sys.stderr)
-        return EXIT_FATAL
+        return _fatal([f"--span {args.span}: {err}"])
+    found = list(placement.suggestions)
     rows = [suggestion_dict(checked, s, k + 1) for k, s in enumerate(found)]
     if out_json is not None:
-        write_atomic(out_json, dumps({"schema": "spanwise-idlers/1", "drawing": str(src), "span": ref.span_id,
-                                       "loop": ref.loop_id, "suggestions": rows}))
+        write_atomic(out_json, dumps(placement_dict(str(src), placement, rows)))
     if out is not None and found:
         write_suggestions(checked, found, out)
-    if not found:
-        print(f"{src}: no position on span {ref.span_id} of loop {ref.loop_id} gives a valid idler", flush=True)
-        return EXIT_FINDINGS
-    units = checked.model.units
-    print(f"{src}: idler positions for span {ref.span_id} of loop {ref.loop_id} "
-          f"(pitch diameter {rows[0]['pitch_diameter_m'] * 1e3:.1f} mm, {args.side} side)")
-    print(f"  {'#':>2} {'centre (' + units + ')':>24} {'along':>6} {'push mm':>8} {'wrap':>6} {'hub N':>7} "
-          f"{'grip':>5} {'clear':>6} {'left':>4}  new spans f1 Hz")
-    for row in rows:
-        cx, cy = row["center"]
-        f1 = ", ".join(f"{k} {v['frequencies_hz'][0]:.1f}" for k, v in row["spans"].items())
-        print(f"  {row['rank']:>2} {f'({cx:.2f}, {cy:.2f})':>24} {row['along']:>6.2f} "
-              f"{row['deflection_m'] * 1e3:>8.2f} {row['wrap_deg']:>6.1f} {row['hub_load_n']:>7.0f} "
-              f"{row['worst_grip_utilisation']:>5.2f} {row['resonance_clearance']:>6.3f} "
-              f"{row['resonances_left']:>4}  {f1}")
-    print("  clear: smallest |excitation/f - 1| of the new spans over the speed range; left: their resonance bands")
-    return EXIT_OK if rows[0]["resonances_left"] == 0 else EXIT_FINDINGS
+    for line in console_lines(str(src), checked, placement, found, rows, quiet=args.quiet):
+        print(line)
+    sys.stdout.flush()
+    if not placement.needed:
+        return EXIT_OK
+    return EXIT_OK if found and found[0].clear else EXIT_FINDINGS
 
 
 def _catalog(args: argparse.Namespace) -> int:
@@ -361,6 +349,10 @@ def main(argv: list[str] | None = None) -> int:
             return _watch(args)
         if args.command == "strip":
             return _strip(args)
+        if args.command == "audit":
+            from .audit_cli import run_audit
+
+            return run_audit(args, _fatal)
     except KeyboardInterrupt:
         print("spanwise: interrupted", file=sys.stderr)
         return EXIT_FATAL

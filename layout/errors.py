@@ -6,7 +6,7 @@ found (one line each): the command line prints them all and exits with status 2.
 
 from __future__ import annotations
 
-__all__ = ["SpanwiseError", "FatalInput", "NotADrawing", "SpecError", "OutputRefused"]
+__all__ = ["SpanwiseError", "FatalInput", "NotADrawing", "NoBeltLoop", "SpecError", "OutputRefused"]
 
 
 class SpanwiseError(Exception):
@@ -23,6 +23,10 @@ class FatalInput(SpanwiseError, ValueError):
 
 class NotADrawing(FatalInput):
     """The file is not a readable DXF drawing (a DWG, random bytes, empty, truncated)."""
+
+
+class NoBeltLoop(FatalInput):
+    """The drawing reads fine but holds no belt loop (a plate, a parts sheet, a title block)."""
 
 
 class SpecError(FatalInput):

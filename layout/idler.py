@@ -1,9 +1,10 @@
 """``spanwise suggest-idler``: the drawing's side of idler placement.
 
 Finds the span the user names, turns an allowed region drawn on a layer into polygons in
-the drive's frame, calls :func:`physics.placement.suggest_idler`, and can draw the
-suggestions (idler circles, labels and the belt's new tangent path) into a copy of the
-drawing on spanwise's own layers.
+the drive's frame, calls :func:`physics.placement.place_idler`, words the answer for the
+console (the suggestions, how the added belt length is taken up, or which constraints ruled
+every position out), and can draw the suggestions (idler circles, labels and the belt's new
+tangent path) into a copy of the drawing on spanwise's own layers.
 """
 
 from __future__ import annotations
@@ -17,18 +18,36 @@ import numpy as np
 
 from physics.catalogue import find_section
 from physics.model import Side
-from physics.placement import NEW_IDLER_ID, IdlerSuggestion, suggest_idler
+from physics.placement import (CONSTRAINT_TEXT, NEW_IDLER_ID, Constraint, IdlerSuggestion, Placement, TakeUp,
+                               TakeUpMode, place_idler)
 
 from .errors import FatalInput
 from .pipeline import Checked, options_for
+from .quantity import QuantityError, parse_quantity
 from .recognize import layer_matches
 
-__all__ = ["IDLER_LAYER", "PATH_LAYER", "find_span", "region_polygons", "suggest", "write_suggestions",
-           "suggestion_dict"]
+__all__ = ["IDLER_LAYER", "PATH_LAYER", "find_span", "region_polygons", "suggest", "place", "write_suggestions",
+           "suggestion_dict", "placement_dict", "console_lines", "length_option"]
 
 #: spanwise's own layers for suggested idlers and the belt path through them.
 IDLER_LAYER = "SPANWISE-IDLER"
 PATH_LAYER = "SPANWISE-IDLER-PATH"
+
+
+def length_option(name: str, text: str | None, problems: list[str], *, positive: bool) -> float | None:
+    """A length option of the command line (``'90 mm'``, ``'0.2 in'``) in metres, or ``None``
+    when not given; a bad value adds one line to ``problems``."""
+    if text is None:
+        return None
+    try:
+        value = parse_quantity(text, "length")
+    except QuantityError as err:
+        problems.append(f"{name}: {err}")
+        return None
+    if value < 0 or (positive and value == 0):
+        problems.append(f"{name} {text}: expected a length {'greater than' if positive else 'of at least'} 0")
+        return None
+    return value
 
 
 @dataclass(frozen=True, slots=True)
@@ -103,13 +122,27 @@ def default_radius(checked: Checked, ref: SpanRef) -> float:
     return r
 
 
-def suggest(checked: Checked, ref: SpanRef, *, radius_m: float | None, side: Side, region: list[np.ndarray] | None,
-            count: int) -> list[IdlerSuggestion]:
-    """Run the placement search for ``ref`` with the drawing's analysis options."""
+def place(checked: Checked, ref: SpanRef, *, radius_m: float | None, side: Side,
+          region: list[np.ndarray] | None, count: int, clearance_m: float | None = None) -> Placement:
+    """Run the placement search for ``ref`` with the drawing's analysis options (its results
+    already computed serve as the drive without the idler)."""
     opts = options_for(checked.model.spec)
     r = radius_m if radius_m is not None else default_radius(checked, ref)
-    return suggest_idler(checked.model.drive, ref.loop_id, ref.index, r, side=side, options=opts, region=region,
-                         count=count)
+    return place_idler(checked.model.drive, ref.loop_id, ref.index, r, side=side, options=opts, region=region,
+                       count=count, clearance_m=clearance_m, base=checked.results)
+
+
+def suggest(checked: Checked, ref: SpanRef, *, radius_m: float | None, side: Side, region: list[np.ndarray] | None,
+            count: int, clearance_m: float | None = None) -> list[IdlerSuggestion]:
+    """The suggestions of :func:`place` alone, best first (empty when no idler is needed)."""
+    return list(place(checked, ref, radius_m=radius_m, side=side, region=region, count=count,
+                      clearance_m=clearance_m).suggestions)
+
+
+def _take_up_dict(t: TakeUp) -> dict[str, Any]:
+    return {"mode": t.mode.value, "added_length_m": t.added_length_m, "belt_length_m": t.belt_length_m,
+            "axial_stiffness_n": t.axial_stiffness_n, "tension_rise_n": t.tension_rise_n,
+            "adjust_pulley": t.adjust_pulley, "adjust_travel_m": t.adjust_travel_m}
 
 
 def suggestion_dict(checked: Checked, s: IdlerSuggestion, rank: int) -> dict[str, Any]:
@@ -135,8 +168,99 @@ def suggestion_dict(checked: Checked, s: IdlerSuggestion, rank: int) -> dict[str
         "wraps_deg": {p: math.degrees(float(w)) for p, w in zip(loop.pulleys, g.wrap_rad)},
         "hub_load_n": float(np.hypot(*hub[0])), "max_hub_load_n": float(np.hypot(hub[:, 0], hub[:, 1]).max()),
         "worst_grip_utilisation": s.worst_grip, "resonance_clearance": s.clearance,
-        "loop_resonance_clearance": s.loop_clearance, "resonances_left": s.resonance_count, "spans": spans,
+        "install_tension_n": None if mech is None else mech.install_tension_n,
+        "loop_resonance_clearance": s.loop_clearance, "resonances_left": s.resonance_count,
+        "loop_resonances_left": s.loop_resonance_count, "gap_m": s.gap_m, "spans": spans,
+        "take_up": None if s.take_up is None else _take_up_dict(s.take_up),
     }
+
+
+def placement_dict(drawing: str, placement: Placement, rows: list[dict[str, Any]]) -> dict[str, Any]:
+    """The JSON of ``suggest-idler`` (``schema: "spanwise-idlers/1"``) as plain values."""
+    return {"schema": "spanwise-idlers/1", "drawing": drawing, "span": placement.span_id,
+            "loop": placement.loop_id, "idler_needed": placement.needed, "clearance_m": placement.clearance_m,
+            "positions_tried": placement.tried,
+            "ruled_out": {c.value: placement.ruled_out.get(c, 0) for c in Constraint}, "suggestions": rows}
+
+
+def _head(units: str) -> str:
+    return (f"  {'#':>2} {'centre (' + units + ')':>24} {'along':>6} {'push mm':>8} {'wrap':>6} {'gap mm':>7} {'hub N':>7} "
+         f"{'grip':>5} {'clear':>6} {'left':>4} {'+path mm':>8} {'take-up':>14}  new spans f1 Hz")
+
+
+def _take_up_cell(t: TakeUp | None) -> str:
+    if t is None:
+        return "-"
+    if t.mode is TakeUpMode.STRETCH:
+        return f"T {t.tension_rise_n:+.0f} N"
+    if t.mode is TakeUpMode.ADJUST and t.adjust_travel_m is not None:
+        return f"{t.adjust_pulley} {t.adjust_travel_m * 1e3:+.2f} mm"
+    return {TakeUpMode.TENSIONER: "tensioner", TakeUpMode.CONSTANT: "held", TakeUpMode.NO_LENGTH: "longer belt",
+            TakeUpMode.UNKNOWN: "move a pulley"}.get(t.mode, "-")
+
+
+def _row_line(row: dict[str, Any], s: IdlerSuggestion) -> str:
+    cx, cy = row["center"]
+    f1 = ", ".join(f"{k} {v['frequencies_hz'][0]:.1f}" for k, v in row["spans"].items())
+    added = s.take_up.added_length_m * 1e3 if s.take_up is not None else math.nan
+    return (f"  {row['rank']:>2} {f'({cx:.2f}, {cy:.2f})':>24} {row['along']:>6.2f} "
+            f"{row['deflection_m'] * 1e3:>8.2f} {row['wrap_deg']:>6.1f} {row['gap_m'] * 1e3:>7.1f} "
+            f"{row['hub_load_n']:>7.0f} {row['worst_grip_utilisation']:>5.2f} {row['resonance_clearance']:>6.3f} "
+            f"{row['resonances_left']:>4} {added:>8.2f} {_take_up_cell(s.take_up):>14}  {f1}")
+
+
+def _take_up_note(t: TakeUp, pulley_ids: tuple[str, ...]) -> str:
+    """What the take-up column means for this loop (one line)."""
+    belt = "" if t.belt_length_m is None else f"the chosen {t.belt_length_m * 1e3:.0f} mm belt"
+    if t.mode is TakeUpMode.STRETCH:
+        return (f"take-up: fixed centres and {belt}: the install tension rises by EA*dL/L (EA "
+                f"{t.axial_stiffness_n:.0f} N per strand); each position is analysed at the raised tension")
+    if t.mode is TakeUpMode.ADJUST:
+        return (f"take-up: with {belt}, the adjustable pulley must slide by the travel shown (signed along its "
+                f"`adjust` direction, from where it sits without the idler) to take up the added path; the install "
+                f"tension stays")
+    if t.mode is TakeUpMode.UNKNOWN:
+        return (f"take-up: fixed centres and {belt}, but no axial_stiffness: the tension rise is unknown; an "
+                f"adjustable pulley ({'/'.join(p for p in pulley_ids if p != NEW_IDLER_ID)}: mark one with "
+                f"`adjust`) must take up the added path")
+    if t.mode is TakeUpMode.NO_LENGTH:
+        return "take-up: no belt length chosen: the belt must be longer by the added path (+path)"
+    if t.mode is TakeUpMode.TENSIONER:
+        return "take-up: the loop's tensioner takes up the added path"
+    return "take-up: constant tensioning holds the tension while the added path is taken up"
+
+
+def _ruled_out_line(placement: Placement) -> str:
+    counts = [f"{n} {CONSTRAINT_TEXT[c]}" for c in Constraint if (n := placement.ruled_out.get(c, 0))]
+    return f"  of {placement.tried} positions tried: " + ("; ".join(counts) if counts else "none evaluated")
+
+
+def console_lines(src: str, checked: Checked, placement: Placement, suggestions: list[IdlerSuggestion],
+                  rows: list[dict[str, Any]], *, quiet: bool = False) -> list[str]:
+    """The console answer: the suggestion rows (alone when ``quiet``), headed and explained."""
+    where = f"span {placement.span_id} of loop {placement.loop_id}"
+    table = [_row_line(row, s) for row, s in zip(rows, suggestions)]
+    if quiet:
+        return table
+    if not placement.needed:
+        return [f"{src}: {where} has no resonance over the speed range: no idler needed"]
+    out = []
+    if not any(s.clear for s in suggestions):
+        out += [f"{src}: no valid idler position on {where} (clearance "
+                f"{placement.clearance_m * 1e3:.1f} mm): every position tried broke a constraint",
+                _ruled_out_line(placement)]
+        if not rows:
+            return out
+        out.append("  the best positions within the other constraints, resonance not cleared:")
+    else:
+        out.append(f"{src}: idler positions for {where} (pitch diameter {rows[0]['pitch_diameter_m'] * 1e3:.1f} mm, "
+                   f"{suggestions[0].side.value} side, clearance {placement.clearance_m * 1e3:.1f} mm)")
+    out += [_head(checked.model.units), *table]
+    out.append("  clear: smallest |excitation/f - 1| of the new spans over the speed range; left: their resonance "
+               "bands; gap: to the nearest pulley or other span; +path: added belt path")
+    if suggestions[0].take_up is not None:
+        out.append("  " + _take_up_note(suggestions[0].take_up, suggestions[0].results.loops[placement.loop_id].loop.pulleys))
+    return out
 
 
 def write_suggestions(checked: Checked, suggestions: list[IdlerSuggestion], out: Path) -> None:

@@ -24,7 +24,7 @@ from physics.findings import Finding, Severity
 from physics.kinematics import travel_plan
 from physics.model import Belt, Drive, Loop, Pulley, Role
 
-from .errors import FatalInput, SpecError
+from .errors import NoBeltLoop, SpecError
 from .loops import LoopContext, LoopRecord, PulleyRecord, ToMetres, apply_travel, build_loops, height_du
 from .naming import Names, name_pulleys, named_circles, texts_in_circles
 from .quantity import length_factor
@@ -93,7 +93,7 @@ def build_model(d: Drawing, spec: Spec) -> Model:
     if problems:
         raise SpecError(problems)
     if not loops and not any(f.severity is Severity.ERROR for f in findings):
-        raise FatalInput(f"{d.path}: holds no belt loop: no closed path of lines and arcs, "
+        raise NoBeltLoop(f"{d.path}: holds no belt loop: no closed path of lines and arcs, "
                          f"polyline or tangent spans wraps two or more circles, and the spec "
                          f"routes none")           # a broken path is a finding, not "no belt"
     _name_open_paths(findings, id_of_circle)
