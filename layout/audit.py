@@ -137,7 +137,7 @@ def out_paths(rel: str, out_tree: Path) -> tuple[Path, Path, Path]:
     """The annotated copy, JSON and HTML reports of a drawing in the output tree, mirroring
     its summary path; no part of the name can lead out of the tree."""
     parts = [p for p in rel.split("/") if p not in ("", ".", "..")]
-    safe = [p.lstrip("-").replace("\\", "_").replace(":", "_") or "_" for p in parts] or ["drawing.dxf"]
+    safe = parts or ["drawing.dxf"]
     folder = out_tree.joinpath(*safe[:-1])
     stem = safe[-1][:-4] if safe[-1].lower().endswith(".dxf") else safe[-1]
     paths = folder / f"{stem}.spanwise.dxf", folder / f"{stem}.json", folder / f"{stem}.html"
