@@ -237,6 +237,10 @@ def _child(src: Source, opts: AuditOptions, memory: int, conn: Any) -> None:
 
 
 _CONTEXT: Any = None
+#: Imported once by the fork server, so that each child starts with them loaded (ezdxf alone
+#: takes about 150 ms to import; a child per drawing must not pay it).
+_PRELOAD = ["layout.audit", "layout.pipeline", "layout.runner", "layout.annotate", "layout.report",
+            "ezdxf", "ezdxf.recover", "scipy.optimize", "scipy.spatial", "scipy.sparse.csgraph", "shapely"]
 
 
 def _context() -> Any:
@@ -248,7 +252,7 @@ def _context() -> Any:
 
         try:
             _CONTEXT = mp.get_context("forkserver")
-            _CONTEXT.set_forkserver_preload(["layout.audit", "layout.pipeline", "layout.runner"])
+            _CONTEXT.set_forkserver_preload(_PRELOAD)
         except ValueError:
             _CONTEXT = mp.get_context()
     return _CONTEXT

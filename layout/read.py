@@ -871,8 +871,8 @@ def read_drawing(path: str | Path, *, keep_document: bool = False) -> Drawing:
     """
     p = str(path)
     if Path(p).is_dir():
-        raise NotADrawing(f"{p}: is a folder; spanwise check reads one DXF drawing (check the drawings "
-                          f"in a folder one by one, or with spanwise audit where it is installed)")
+        raise NotADrawing(f"{p}: is a folder; spanwise check reads one DXF drawing (check every drawing "
+                          f"of a folder with: spanwise audit {p})")
     try:
         data = Path(p).read_bytes()
     except OSError as err:

@@ -148,8 +148,8 @@ def run_check(drawing: Path, outputs: Outputs, *, spec: str | None, grip_margin:
 
     problems: list[str] = []
     if drawing.is_dir():
-        problems.append(f"{drawing}: is a folder; spanwise check reads one DXF drawing (check each "
-                        f"drawing of a folder by name)")
+        problems.append(f"{drawing}: is a folder; spanwise check reads one DXF drawing (check every "
+                        f"drawing of a folder with: spanwise audit {drawing})")
         raise FatalInput(problems)
     problems += output_problems(outputs, drawing, spec_in_use(drawing, spec), force)
     try:

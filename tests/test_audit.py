@@ -192,3 +192,34 @@ def test_summaries_and_the_output_tree(tmp_path):
             assert f'href="out/{stem}.html"' in index
     assert all(p.resolve().is_relative_to(out.resolve()) for p in out.rglob("*"))
     assert not any(p.name.endswith(".spanwise.dxf") for p in root.rglob("*"))
+
+
+def test_paths_are_relative_to_their_argument_and_own_outputs_are_skipped(tmp_path):
+    a, b = make_library(tmp_path / "a", 4, seed=1), make_library(tmp_path / "b", 4, seed=2)
+    one = audit([tmp_path / "a"], workers=2)
+    assert sorted(r["path"] for r in one) == sorted(a)              # relative, with /
+    both = audit([tmp_path / "a", tmp_path / "b"], workers=2)
+    want = sorted([f"{tmp_path / 'a'}/{p}" for p in a] + [f"{tmp_path / 'b'}/{p}" for p in b])
+    assert sorted(r["path"] for r in both) == want                  # prefixed by their argument
+    clean = next(p for p, k in sorted(a.items()) if k == "clean")
+    (tmp_path / "a" / clean).with_suffix(".spanwise.dxf").write_bytes((tmp_path / "a" / clean).read_bytes())
+    assert sorted(r["path"] for r in audit([tmp_path / "a"], workers=2)) == sorted(a)
+    globbed = audit([str(tmp_path / "a" / "**" / "*.dxf")], workers=2)
+    assert sorted(r["path"] for r in globbed) == sorted(p for p in a if p.endswith(".dxf"))
+
+
+def test_the_default_spec_applies_where_a_drawing_has_none(tmp_path):
+    root = tmp_path / "lib"
+    expected = make_library(root, 6, seed=9)
+    default = tmp_path / "library.spanwise.toml"
+    default.write_text('units = "mm"\n[belt]\nsection = "SPA"\ninstall_tension = "-5 N"\n')
+    rows = audit([root], workers=2, options=AuditOptions(spec_default=default))
+    # the default's bad value fails every drawing that reads it (the damaged and the belt-less
+    # ones too: a spec problem is fatal before the drawing is analysed)
+    assert {r["status"] for r in rows} == {"failed"}
+    assert all("install_tension" in r["message"] for r in rows if r["path"] in expected)
+
+
+def test_a_name_that_names_nothing_is_one_fatal_line(tmp_path):
+    r = subprocess.run(_cli(str(tmp_path / "nothing-here")), capture_output=True, text=True)
+    assert r.returncode == 2 and len(r.stderr.strip().splitlines()) == 1 and "names no DXF" in r.stderr
