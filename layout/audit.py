@@ -22,6 +22,7 @@ import hashlib
 import json
 import math
 import os
+import threading
 import time
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -237,6 +238,9 @@ def _child(src: Source, opts: AuditOptions, memory: int, conn: Any) -> None:
 
 
 _CONTEXT: Any = None
+#: Children now checking a drawing, and the flag that stops new ones (an interrupted audit).
+_ACTIVE: set[Any] = set()
+_STOPPING = threading.Event()
 #: Imported once by the fork server, so that each child starts with them loaded (ezdxf alone
 #: takes about 150 ms to import; a child per drawing must not pay it).
 _PRELOAD = ["layout.audit", "layout.pipeline", "layout.runner", "layout.annotate", "layout.report",
@@ -268,9 +272,12 @@ def check_isolated(src: Source, opts: AuditOptions, *, memory: int, attempts: in
     t0 = time.perf_counter()
     why = ""
     for _ in range(max(attempts, 1)):
+        if _STOPPING.is_set():
+            return _empty_row(src, "failed", 2, "the audit was interrupted")
         recv, send = ctx.Pipe(duplex=False)
         proc = ctx.Process(target=_child, args=(src, opts, memory, send), daemon=True)
         proc.start()
+        _ACTIVE.add(proc)
         send.close()
         try:
             if recv.poll(opts.timeout_s):
@@ -290,6 +297,7 @@ def check_isolated(src: Source, opts: AuditOptions, *, memory: int, attempts: in
             if proc.is_alive():
                 proc.kill()
                 proc.join()
+            _ACTIVE.discard(proc)
         why = f"its checking process died (exit {proc.exitcode})"
     return _empty_row(src, "failed", 2, why)
 
@@ -362,13 +370,22 @@ def _run_local(todo: list[tuple[Source, str]], opts: AuditOptions, workers: int,
 
     memory = _memory_limit(opts, workers)
     rows = []
-    with ThreadPoolExecutor(max_workers=max(workers, 1)) as pool:
-        futures = {pool.submit(check_isolated, src, opts, memory=memory): key for src, key in todo}
+    _STOPPING.clear()
+    pool = ThreadPoolExecutor(max_workers=max(workers, 1))
+    futures = {pool.submit(check_isolated, src, opts, memory=memory): key for src, key in todo}
+    try:
         for fut in as_completed(futures):
             row = fut.result()
             cache.put(futures[fut], row)
             rows.append(row)
             progress.add(row)
+    except BaseException:            # Ctrl-C: start nothing new, stop what runs, keep what is cached
+        _STOPPING.set()
+        pool.shutdown(wait=False, cancel_futures=True)
+        for proc in list(_ACTIVE):
+            proc.kill()
+        raise
+    pool.shutdown()
     return rows
 
 

@@ -78,7 +78,10 @@ def test_an_interrupted_run_then_a_rerun_gives_the_full_summary(tmp_path):
     while time.time() < deadline and len(list(cache.rglob("*.json"))) < 5:
         time.sleep(0.05)
     proc.send_signal(signal.SIGINT)
+    t0 = time.time()
     proc.wait(timeout=60)
+    assert time.time() - t0 < 10                  # it stops, it does not finish the batch first
+    assert proc.returncode == 2
     entries = list(cache.rglob("*.json"))
     assert entries and all(json.loads(p.read_text())["status"] for p in entries)    # no torn entry
     rerun = audit([root], workers=2, cache_dir=cache)
