@@ -54,7 +54,12 @@ _DWG = re.compile(rb"^AC\d\.?\d")
 _BINARY_DXF = b"AutoCAD Binary DXF"
 _HEADER_UNITS = re.compile(rb"\$INSUNITS\s*\r?\n\s*70\s*\r?\n\s*(-?\d+)")
 _HEADER_VERSION = re.compile(rb"\$ACADVER\s*\r?\n\s*1\s*\r?\n\s*([^\r\n]+)")
-_HEADER_SECTION = re.compile(rb"\n\s*2\s*\r?\n\s*HEADER\s*\r?\n(.*?)\n\s*0\s*\r?\n\s*ENDSEC", re.S)
+# Line-anchored, whitespace within a line only: linear in the file, whatever it holds (a lazy
+# ".*?" between multi-line "\s*" runs backtracks cubically on a HEADER without its ENDSEC).
+_HEADER_START = re.compile(rb"(?m)^[ \t]*2[ \t]*\r?\n[ \t]*HEADER[ \t]*\r?$")
+_SECTION_END = re.compile(rb"(?m)^[ \t]*ENDSEC[ \t]*\r?$")
+#: The raw header is looked for in the file's first bytes only.
+HEADER_WINDOW = 2_000_000
 
 
 @dataclass(frozen=True, slots=True)
@@ -190,8 +195,7 @@ def _raw_header(data: bytes, binary: bool) -> tuple[str, str | None]:
                 value = int.from_bytes(data[k + 12:k + 14], "little", signed=True)
                 units = INSUNITS_NAMES.get(value)
         return version, units
-    m = _HEADER_SECTION.search(data[:2_000_000])
-    header = m.group(1) if m else b""
+    header = _header_text(data[:HEADER_WINDOW])
     mv = _HEADER_VERSION.search(header)
     if mv:
         version = mv.group(1).strip().decode("ascii", "replace")
@@ -199,6 +203,15 @@ def _raw_header(data: bytes, binary: bool) -> tuple[str, str | None]:
     if mu and version not in ("AC1009", "AC1006", "AC1004", "AC1002"):
         units = INSUNITS_NAMES.get(int(mu.group(1)))
     return version, units
+
+
+def _header_text(window: bytes) -> bytes:
+    """The raw HEADER section's text: from its name to its ENDSEC, or to the window's end."""
+    m = _HEADER_START.search(window)
+    if m is None:
+        return b""
+    end = _SECTION_END.search(window, m.end())
+    return window[m.end():end.start() if end else len(window)]
 
 
 def _has_eof(data: bytes, binary: bool) -> bool:
