@@ -347,10 +347,12 @@ def _dedup_circles(d: Drawing, tol: Tolerances) -> tuple[NDArray[np.int64], list
     if n < 2:
         return alias, repeats
     pts = np.column_stack([c.x, c.y])
-    tree = cKDTree(pts)
-    # each circle's own tolerance: a large circle must not widen the search for small ones
+    # each circle's own tolerance: a large circle must not widen the search for small ones; the
+    # search is in (x, y, r), so that concentric circles of other radii are never candidates
+    # (10 000 concentric circles would otherwise be 10**8 pairs)
     lims = tol.join_abs(c.r, np.abs(pts).max(axis=1))
-    hits = tree.query_ball_point(pts, r=lims)
+    tree = cKDTree(np.column_stack([c.x, c.y, c.r]))
+    hits = tree.query_ball_point(tree.data, r=lims * math.sqrt(2.0))
     pairs = sorted((i, j) for i, js in enumerate(hits) for j in js if j > i)
     for i, j in pairs:
         lim = float(tol.join_abs(min(c.r[i], c.r[j]), max(abs(c.x[i]), abs(c.y[i]))))
@@ -530,10 +532,14 @@ def _cluster_ends(ends: PathEnds, scene: _Scene) -> None:
     m = len(P)
     r_ref = np.where(ends.circle >= 0, cr[np.maximum(ends.circle, 0)], np.median(cr))
     etol = scene.tol.join_abs(r_ref, np.abs(P).max(axis=1))
-    pairs = cKDTree(P).query_pairs(r=float(etol.max()), output_type="ndarray")
+    # each end searched within its own tolerance (one end far out must not widen the search
+    # for all); a pair meets within the larger of its two tolerances
+    hits = cKDTree(P).query_ball_point(P, r=etol, return_sorted=False)
+    sizes = np.fromiter((len(h) for h in hits), dtype=np.int64, count=m)
+    pairs = np.column_stack([np.repeat(np.arange(m), sizes),
+                             np.fromiter((j for h in hits for j in h), dtype=np.int64, count=int(sizes.sum()))])
+    pairs = pairs[(pairs[:, 0] < pairs[:, 1]) | (etol[pairs[:, 1]] < np.hypot(*(P[pairs[:, 0]] - P[pairs[:, 1]]).T))]
     if pairs.size:
-        dd = np.hypot(*(P[pairs[:, 0]] - P[pairs[:, 1]]).T)
-        pairs = pairs[dd <= np.maximum(etol[pairs[:, 0]], etol[pairs[:, 1]])]
         pairs = pairs[pairs[:, 0] // 2 != pairs[:, 1] // 2]
     if pairs.size:
         g = coo_matrix((np.ones(len(pairs)), (pairs[:, 0], pairs[:, 1])), shape=(m, m))

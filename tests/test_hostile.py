@@ -17,7 +17,8 @@ def _check(path: Path, *args: str) -> subprocess.CompletedProcess:
                           capture_output=True, text=True, timeout=30)
 
 
-@pytest.mark.parametrize("filler", [b"\n" * 8000, b" \n" * 4000, b"\t\r\n" * 3000])
+@pytest.mark.parametrize("filler", [b"\n" * 8000, b" \n" * 4000, b"\t\r\n" * 3000],
+                         ids=["newlines", "blank-lines", "tab-crlf"])
 def test_a_header_without_its_endsec_is_read_in_linear_time(tmp_path, filler):
     # a line-anchored header search: before, a lazy match between multi-line whitespace runs
     # took 2.2 s on 2000 newlines and grew with their cube (8 KB: about 150 s)
@@ -29,3 +30,37 @@ def test_a_header_without_its_endsec_is_read_in_linear_time(tmp_path, filler):
     path.write_bytes(data)
     r = _check(path)
     assert r.returncode == 2 and len(r.stderr.strip().splitlines()) == 1 and "Traceback" not in r.stderr
+
+
+def _r2010(tmp_path: Path, name: str, build) -> Path:
+    import ezdxf
+
+    doc = ezdxf.new("R2010")
+    doc.header["$INSUNITS"] = 4
+    build(doc.modelspace())
+    path = tmp_path / name
+    doc.saveas(path)
+    return path
+
+
+def test_ten_thousand_concentric_circles_are_no_belt_and_no_pile_of_pairs(tmp_path):
+    # the duplicate search is in (x, y, r): concentric circles of other radii never pair up
+    # (a search in (x, y) alone gave 10**8 candidate pairs and 7.9 GB)
+    path = _r2010(tmp_path, "rings.dxf", lambda msp: [msp.add_circle((0, 0), 1.0 + 0.01 * k) for k in range(10_000)])
+    r = _check(path)
+    assert r.returncode == 2 and "holds no belt loop" in r.stderr and len(r.stderr.strip().splitlines()) == 1
+
+
+def test_short_lines_with_one_end_far_out_cluster_each_within_its_own_tolerance(tmp_path):
+    # one end at 1e12 has a join tolerance of 1e-9 * 1e12 = 1000 units; searching every end
+    # that far paired all 10 000 short lines with each other (6.2 GB, then out of memory)
+    def build(msp):
+        for k in range(10_000):
+            x = (k % 100) * 3.0
+            y = (k // 100) * 3.0
+            msp.add_line((x, y), (x + 1.0, y))
+        msp.add_line((0.0, 500.0), (1e12, 500.0))
+        msp.add_circle((0.0, 1000.0), 10.0)
+
+    r = _check(_r2010(tmp_path, "far.dxf", build))
+    assert r.returncode == 2 and "holds no belt loop" in r.stderr and len(r.stderr.strip().splitlines()) == 1
