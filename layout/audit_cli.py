@@ -51,6 +51,8 @@ def _cache_dir(args: argparse.Namespace) -> Path | None:
 
 def _problems(args: argparse.Namespace) -> list[str]:
     out = []
+    if args.workers is not None and args.scheduler:
+        out.append("--workers and --scheduler: give one (the cluster's workers check the drawings)")
     if args.workers is not None and args.workers < 1:
         out.append(f"--workers {args.workers}: expected 1 or more")
     if not args.timeout > 0:

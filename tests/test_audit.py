@@ -50,6 +50,16 @@ def test_every_drawing_gets_its_status_with_one_and_two_workers(library, tmp_pat
     assert faulty and all(r["codes"].get("span-not-tangent") == 1 and r["exit"] == 1 for r in faulty)
 
 
+def test_a_dask_cluster_gives_the_same_summary_for_the_whole_library(library):
+    distributed = pytest.importorskip("distributed")
+    root, expected = library
+    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None,
+                                  host="127.0.0.1") as cluster:
+        rows = audit([root], scheduler=cluster.scheduler_address)
+    assert {r["path"]: r["status"] for r in rows} == expected
+    assert _strip(rows) == _strip(audit([root], workers=2))
+
+
 def test_a_second_run_comes_from_the_cache_and_a_changed_spec_reruns_only_its_drawing(tmp_path):
     root = tmp_path / "lib"
     expected = make_library(root, 12, seed=5)
