@@ -90,7 +90,7 @@ Checked = Report
 def load_spec_for(drawing: str | Path, spec: str | Path | None) -> tuple[Spec, str | None]:
     """The spec named by ``spec``, else ``NAME.spanwise.toml`` beside the drawing, else none."""
     if spec is not None:
-        if not Path(spec).is_file():
+        if not Path(spec).exists():
             raise FatalInput(f"{spec}: spec file not found")
         return load_spec(spec), str(spec)
     auto = spec_path_for(drawing)

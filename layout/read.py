@@ -886,6 +886,9 @@ def read_drawing(path: str | Path, *, keep_document: bool = False) -> Drawing:
     if Path(p).is_dir():
         raise NotADrawing(f"{p}: is a folder; spanwise check reads one DXF drawing (check every drawing "
                           f"of a folder with: spanwise audit {p})")
+    if Path(p).exists() and not Path(p).is_file():
+        raise NotADrawing(f"{p}: is not a regular file (a pipe, a device or a socket); expected a DXF "
+                          f"drawing file")
     try:
         data = Path(p).read_bytes()
     except OSError as err:

@@ -616,6 +616,9 @@ def load_spec(path: str | Path) -> Spec:
         Listing every problem, one line each, each naming the file and the key.
     """
     p = Path(path)
+    if p.is_dir() or (p.exists() and not p.is_file()):
+        raise SpecError(f"{p}: is not a regular file (a folder, a pipe or a device); expected a spec "
+                        f"file (TOML)")
     try:
         text = p.read_text(encoding="utf-8")
     except (OSError, UnicodeDecodeError) as err:

@@ -64,3 +64,28 @@ def test_short_lines_with_one_end_far_out_cluster_each_within_its_own_tolerance(
 
     r = _check(_r2010(tmp_path, "far.dxf", build))
     assert r.returncode == 2 and "holds no belt loop" in r.stderr and len(r.stderr.strip().splitlines()) == 1
+
+
+def test_a_pipe_or_a_device_as_the_drawing_or_the_spec_is_one_line(tmp_path):
+    import os
+
+    fifo = tmp_path / "drawing.dxf"
+    os.mkfifo(fifo)
+    r = _check(fifo)                              # before: blocked forever reading the pipe
+    assert r.returncode == 2 and "not a regular file" in r.stderr and len(r.stderr.strip().splitlines()) == 1
+    r = _check(Path("/dev/zero"))                 # before: read until memory ran out
+    assert r.returncode == 2 and "not a regular file" in r.stderr
+    good = _r2010(tmp_path, "plate.dxf", lambda msp: msp.add_circle((0, 0), 5))
+    r = _check(good, "--spec", str(tmp_path))
+    assert r.returncode == 2 and "not a regular file" in r.stderr
+
+
+def test_an_existing_json_target_is_judged_by_its_head(tmp_path):
+    from layout.runner import _is_our_json
+
+    ours = tmp_path / "ours.json"
+    ours.write_text('{\n  "schema": "spanwise-report/1",\n  "loops": []\n}\n')
+    big = tmp_path / "big.json"
+    with big.open("wb") as fh:                    # 64 MiB of someone else's JSON, never loaded whole
+        fh.write(b'{"data": "' + b"x" * (64 << 20) + b'"}')
+    assert _is_our_json(ours) and not _is_our_json(big)
