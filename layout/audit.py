@@ -224,7 +224,13 @@ def _memory_limit(opts: AuditOptions, workers: int) -> int:
 
 
 def _child(src: Source, opts: AuditOptions, memory: int, conn: Any) -> None:
-    """The child process: limit its own memory, check, send the row back."""
+    """The child process: quiet the libraries' logging (problems are findings), limit its own
+    memory, check, send the row back."""
+    import logging
+
+    for name in ("ezdxf", "layout", "physics"):
+        logging.getLogger(name).addHandler(logging.NullHandler())
+        logging.getLogger(name).propagate = False
     try:
         import resource
 

@@ -14,9 +14,43 @@ from __future__ import annotations
 
 import math
 import re
+import reprlib
 from dataclasses import dataclass
+from typing import Any
 
-__all__ = ["Kind", "KINDS", "parse_quantity", "QuantityError", "LENGTH_UNITS", "length_factor"]
+__all__ = ["Kind", "KINDS", "parse_quantity", "QuantityError", "LENGTH_UNITS", "length_factor",
+           "shown", "MAX_SHOWN", "MAX_TEXT"]
+
+#: Characters of a value echoed in a message; a longer value is cut with an ellipsis.
+MAX_SHOWN = 60
+#: Characters of a quantity's text ("1450 rpm"); a longer text is refused before it is read.
+MAX_TEXT = 200
+
+_REPR = reprlib.Repr()
+_REPR.maxlevel = 3                  # a deeply nested value is shown as [[[...]]], never recursed
+_REPR.maxstring = MAX_SHOWN
+_REPR.maxother = MAX_SHOWN
+_REPR.maxlong = MAX_SHOWN
+_REPR.maxlist = _REPR.maxtuple = 8
+_REPR.maxdict = 4
+
+
+def shown(value: Any) -> str:
+    """``repr(value)`` as echoed in a message: at most :data:`MAX_SHOWN` characters.
+
+    Cheap whatever the value's size or depth (a megabyte string, an array nested ten
+    thousand deep): only the part shown is ever converted.
+
+    >>> shown("x" * 1000)[-3:]
+    'xx…'
+    >>> len(shown("x" * 1000)) == MAX_SHOWN
+    True
+    """
+    try:
+        text = repr(value[:MAX_SHOWN]) if isinstance(value, str) else _REPR.repr(value)
+    except (RecursionError, ValueError):          # ValueError: an int of over 4300 digits
+        text = f"<a {type(value).__name__}>"
+    return text if len(text) <= MAX_SHOWN else text[:MAX_SHOWN - 1] + "…"
 
 # Dimension vectors: (mass, length, time, angle).
 _Dim = tuple[int, int, int, int]
@@ -121,7 +155,7 @@ def length_factor(name: str) -> float:
                "centimeters": "cm", "centimetres": "cm"}
     key = aliases.get(key.lower(), key.lower())
     if key not in LENGTH_UNITS:
-        raise QuantityError(f"unknown drawing unit {name!r}: expected one of {', '.join(LENGTH_UNITS)}")
+        raise QuantityError(f"unknown drawing unit {shown(name)}: expected one of {', '.join(LENGTH_UNITS)}")
     return LENGTH_UNITS[key]
 
 
@@ -131,7 +165,7 @@ def _lookup(name: str) -> tuple[float, _Dim]:
     alias = _ANY_CASE.get(name.lower())
     if alias is not None:
         return _UNITS[alias]
-    raise QuantityError(f"unknown unit {name!r}")
+    raise QuantityError(f"unknown unit {shown(name)}")
 
 
 def _parse_units(expr: str) -> tuple[float, _Dim]:
@@ -145,10 +179,10 @@ def _parse_units(expr: str) -> tuple[float, _Dim]:
     while pos < len(text):
         m = _TOKEN.match(text, pos)
         if not m or m.end() == pos:
-            raise QuantityError(f"cannot read unit {expr!r}")
+            raise QuantityError("cannot read the unit")
         op, name, power = m.group(1), m.group(2), m.group(3)
         if first and op == "/":
-            raise QuantityError(f"cannot read unit {expr!r}")
+            raise QuantityError("cannot read the unit")
         if name == "1" and first:
             f, d = 1.0, (0, 0, 0, 0)
         else:
@@ -156,7 +190,10 @@ def _parse_units(expr: str) -> tuple[float, _Dim]:
         p = int(power) if power else 1
         if op == "/":
             p = -p
-        factor *= f ** p
+        try:
+            factor *= f ** p
+        except OverflowError:
+            raise QuantityError(f"the power {p} of {shown(name)} is out of range") from None
         for k in range(4):
             dim[k] += d[k] * p
         pos = m.end()
@@ -190,29 +227,43 @@ def parse_quantity(text: str, kind: str) -> float:
     k = KINDS[kind]
     expected = f"expected a {kind.replace('_', ' ')} with a unit, e.g. '{k.example}'"
     if not isinstance(text, str):
-        raise QuantityError(f"got the bare number {text!r}: {expected}")
+        raise QuantityError(f"got {_what(text)} {shown(text)}: {expected}")
+    seen = shown(text)
+    if len(text) > MAX_TEXT:
+        raise QuantityError(f"{seen} is {len(text)} characters long: {expected} "
+                            f"(at most {MAX_TEXT} characters)")
     if "," in text:
-        raise QuantityError(f"{text!r} holds a comma: {expected} (use a point for decimals)")
+        raise QuantityError(f"{seen} holds a comma: {expected} (use a point for decimals)")
     m = _NUMBER.match(text)
     if not m:
-        raise QuantityError(f"{text!r} does not start with a number: {expected}")
+        raise QuantityError(f"{seen} does not start with a number: {expected}")
     value = float(m.group(1))
     unit = m.group(2)
     if not unit:
-        raise QuantityError(f"{text!r} has no unit: {expected}")
+        raise QuantityError(f"{seen} has no unit: {expected}")
     compact = unit.replace(" ", "")
     if compact in _REFUSED and kind == "rotational_speed":
-        raise QuantityError(f"{text!r}: '{compact}' is ambiguous for a speed; write '{_REFUSED[compact]}'")
+        raise QuantityError(f"{seen}: '{compact}' is ambiguous for a speed; write '{_REFUSED[compact]}'")
     try:
         factor, dim = _parse_units(unit)
     except QuantityError as err:
-        raise QuantityError(f"{text!r}: {err}; {expected}") from err
+        raise QuantityError(f"{seen}: {err}; {expected}") from err
     if kind == "rotational_speed" and dim == (0, 0, -1, 0):
-        raise QuantityError(f"{text!r}: a frequency is not a rotational speed; write rpm, rev/s or rad/s")
+        raise QuantityError(f"{seen}: a frequency is not a rotational speed; write rpm, rev/s or rad/s")
     if dim != k.dim:
         # an angle is dimensionless in SI: accept a missing angle only for torque/energy-like kinds
-        raise QuantityError(f"{text!r} is not a {kind.replace('_', ' ')}: {expected}")
-    result = value * factor
+        raise QuantityError(f"{seen} is not a {kind.replace('_', ' ')}: {expected}")
+    try:
+        result = value * factor
+    except OverflowError:
+        result = math.inf
     if not math.isfinite(result):
-        raise QuantityError(f"{text!r} is not finite: {expected}")
+        raise QuantityError(f"{seen} is not finite: {expected}")
     return result
+
+
+def _what(value: Any) -> str:
+    """How a value that is not a text is named: "the bare number", "a list", ..."""
+    if isinstance(value, (int, float)) and not isinstance(value, bool):
+        return "the bare number"
+    return {list: "the list", dict: "the table", bool: "the boolean"}.get(type(value), "the value")

@@ -17,11 +17,34 @@ from pathlib import Path
 from typing import Any
 
 from .errors import SpecError
-from .quantity import QuantityError, length_factor, parse_quantity
+from .quantity import KINDS, MAX_SHOWN, QuantityError, length_factor, parse_quantity, shown
 
 __all__ = ["Spec", "BeltSpec", "PulleySpec", "RouteSpec", "load_spec", "parse_spec",
            "pulley_values", "BELT_KEYS", "PULLEY_KEYS", "ROLES", "spec_path_for",
-           "parse_label_words"]
+           "parse_label_words", "MAX_SPEC_BYTES", "MAX_SI", "MIN_SI", "MAX_POINT", "MAX_NUMBER",
+           "MAX_FRICTION", "MAX_STRANDS", "MAX_MODES", "MAX_ORDER", "MAX_ORDERS",
+           "MAX_STOCK_LENGTHS", "MAX_LAYERS", "MAX_ROUTE_PULLEYS", "MAX_TABLES", "MAX_ID",
+           "MAX_PROBLEMS"]
+
+# Limits. A value beyond them is refused at parse time with the limit in the message: they
+# are far beyond any belt drive, and keep absurd input from costing time, memory or
+# numerical warnings later.
+MAX_SPEC_BYTES = 10_000_000     # size of a spec file
+MAX_SI = 1e9                    # |quantity| in SI units (m, N, W, N*m, rad/s, m/s, rad, ...)
+MIN_SI = 1e-9                   # smallest length, mass per length, bending stiffness (SI)
+MAX_POINT = 1e12                # |coordinate| of a point or a gravity direction, drawing units
+MAX_NUMBER = 100.0              # plain numbers: service_factor, margins, sag_limit, tolerances
+MAX_FRICTION = 10.0             # friction, effective_friction (exp(mu*theta) stays finite)
+MAX_STRANDS = 1000
+MAX_MODES = 50
+MAX_ORDER = 1000.0              # an excitation order
+MAX_ORDERS = 64                 # entries of one pulley's orders
+MAX_STOCK_LENGTHS = 10_000
+MAX_LAYERS = 1000               # entries of belt_layers, keep_out_layers
+MAX_ROUTE_PULLEYS = 10_000      # entries of a route's pulleys (and of back, crossed)
+MAX_TABLES = 10_000             # [pulley.*], [route.*], [belt.*] tables, each
+MAX_ID = 100                    # characters of a pulley or loop id
+MAX_PROBLEMS = 100              # lines reported; the rest are counted in one more line
 
 ROLES = ("driver", "driven", "idler", "tensioner")
 DIRECTIONS = ("ccw", "cw")
@@ -31,7 +54,7 @@ TENSIONING = ("fixed", "constant")
 # key -> kind: a quantity kind of layout.quantity, or one of the special kinds below.
 BELT_KEYS: dict[str, str] = {
     "section": "name", "mass_per_length": "mass_per_length", "axial_stiffness": "force",
-    "bending_stiffness": "bending_stiffness", "friction": "number+", "effective_friction": "number+",
+    "bending_stiffness": "bending_stiffness", "friction": "friction", "effective_friction": "friction",
     "groove_angle": "angle", "strands": "count", "height": "length",
     "tensioning": "tensioning", "install_tension": "force", "length": "length",
     "stock_lengths": "length_list", "max_speed": "speed", "min_diameter": "length",
@@ -168,6 +191,25 @@ class _BadValue(Exception):
         self.raw = raw
 
 
+def _cut(text: str) -> str:
+    """A key or an id as it appears in a message: at most ``MAX_SHOWN`` characters."""
+    return text if len(text) <= MAX_SHOWN else text[:MAX_SHOWN - 1] + "…"
+
+
+class _Problems(list):  # type: ignore[type-arg]
+    """The problem lines: the first ``MAX_PROBLEMS`` are kept, the rest only counted."""
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.dropped = 0
+
+    def append(self, line: str) -> None:
+        if len(self) < MAX_PROBLEMS:
+            super().append(line)
+        else:
+            self.dropped += 1
+
+
 def _is_number(v: Any) -> bool:
     """A TOML integer or float (``True`` and ``False`` are not numbers here)."""
     return isinstance(v, (int, float)) and not isinstance(v, bool)
@@ -191,17 +233,22 @@ def _plain(raw: Any, from_label: bool, read: Callable[[str], float], expected: s
     return raw
 
 
-def _number(raw: Any, from_label: bool) -> float:
+def _within(v: float, lo: float, hi: float) -> bool:
+    """``lo <= v <= hi`` for a finite ``v``; an int of any size compares without overflow."""
+    return (isinstance(v, int) or math.isfinite(v)) and lo <= v <= hi
+
+
+def _number(raw: Any, from_label: bool, *, hi: float = MAX_NUMBER) -> float:
     raw = _plain(raw, from_label, float, "expected a plain number")
-    if not math.isfinite(raw) or raw <= 0:
-        raise _BadValue("expected a number greater than 0", raw)
+    if not _within(raw, 0, hi) or raw == 0:
+        raise _BadValue(f"expected a number in (0, {hi:g}]", raw)
     return float(raw)
 
 
-def _count(raw: Any, from_label: bool) -> int:
+def _count(raw: Any, from_label: bool, *, hi: int = MAX_STRANDS) -> int:
     raw = _plain(raw, from_label, int, "expected a whole number")
-    if not math.isfinite(raw) or int(raw) != raw or raw < 1:
-        raise _BadValue("expected a whole number of at least 1", raw)
+    if not _within(raw, 1, hi) or int(raw) != raw:
+        raise _BadValue(f"expected a whole number from 1 to {hi}", raw)
     return int(raw)
 
 
@@ -217,8 +264,10 @@ def _one_of(options: tuple[str, ...], expected: str) -> Callable[[Any, bool], st
 
 
 def _point(raw: Any, from_label: bool) -> tuple[float, float]:
-    if not isinstance(raw, (list, tuple)) or len(raw) != 2 or not all(_is_number(v) for v in raw):
-        raise _BadValue("expected a point [x, y] in drawing units", raw)
+    if (not isinstance(raw, (list, tuple)) or len(raw) != 2
+            or not all(_is_number(v) and _within(v, -MAX_POINT, MAX_POINT) for v in raw)):
+        raise _BadValue(f"expected a point [x, y] in drawing units, each finite within "
+                        f"+-{MAX_POINT:g}", raw)
     return (float(raw[0]), float(raw[1]))
 
 
@@ -227,19 +276,21 @@ def _speed_range(raw: Any, from_label: bool) -> tuple[float, float]:
         raise _BadValue("expected two speeds, e.g. [\"700 rpm\", \"1800 rpm\"]", raw)
     lo = parse_quantity(raw[0], "rotational_speed")
     hi = parse_quantity(raw[1], "rotational_speed")
-    if not 0 <= lo <= hi:
-        raise _BadValue("expected a low and a high speed, low <= high", raw)
+    if not 0 <= lo <= hi <= MAX_SI:
+        raise _BadValue(f"expected a low and a high speed, 0 <= low <= high <= {MAX_SI:g} rad/s", raw)
     return (lo, hi)
 
 
 def _orders(raw: Any, from_label: bool) -> tuple[float, ...]:
     items = raw if isinstance(raw, (list, tuple)) else [raw]
+    if len(items) > MAX_ORDERS:
+        raise _BadValue(f"expected at most {MAX_ORDERS} orders, got {len(items)}", raw)
     out = []
     for v in items:
         if isinstance(v, str) and from_label:
             v = float(v)        # a ValueError here is reported by _value
-        if not _is_number(v) or not v > 0:
-            raise _BadValue("expected positive numbers, e.g. [1, 2]", raw)
+        if not _is_number(v) or not _within(v, 0, MAX_ORDER) or v == 0:
+            raise _BadValue(f"expected numbers in (0, {MAX_ORDER:g}], e.g. [1, 2]", raw)
         out.append(float(v))
     if not out:
         raise _BadValue("expected at least one order, e.g. [1]", raw)
@@ -249,22 +300,28 @@ def _orders(raw: Any, from_label: bool) -> tuple[float, ...]:
 def _length_list(raw: Any, from_label: bool) -> tuple[float, ...]:
     if not isinstance(raw, (list, tuple)) or not raw:
         raise _BadValue("expected a list of lengths, e.g. [\"1600 mm\", \"1700 mm\"]", raw)
-    vals = tuple(parse_quantity(v, "length") for v in raw)
-    if any(v <= 0 for v in vals):
-        raise _BadValue("expected lengths greater than 0", raw)
-    return vals
+    if len(raw) > MAX_STOCK_LENGTHS:
+        raise _BadValue(f"expected at most {MAX_STOCK_LENGTHS} lengths, got {len(raw)}", raw)
+    return tuple(_quantity("length", v) for v in raw)
 
 
 _POSITIVE_KINDS = ("length", "mass_per_length", "bending_stiffness")
+_SPEED_KINDS = ("rotational_speed", "speed")
 
 
 def _quantity(kind: str, raw: Any) -> float:
-    """A quantity of a :mod:`layout.quantity` kind, in SI."""
+    """A quantity of a :mod:`layout.quantity` kind, in SI, within the limits above."""
     value = parse_quantity(raw, kind)
-    if kind in _POSITIVE_KINDS and value <= 0:
-        raise _BadValue("expected a value greater than 0", raw)
-    if kind == "force" and value < 0:
-        raise _BadValue("expected a force of at least 0", raw)
+    si = KINDS[kind].si
+    if kind in _POSITIVE_KINDS and not MIN_SI <= value <= MAX_SI:
+        raise _BadValue(f"expected a value from {MIN_SI:g} to {MAX_SI:g} {si}", raw)
+    if kind in _SPEED_KINDS and not 0 < value <= MAX_SI:
+        sense = "; the sense is `direction`" if kind == "rotational_speed" else ""
+        raise _BadValue(f"expected a speed greater than 0, at most {MAX_SI:g} {si}{sense}", raw)
+    if kind == "force" and not 0 <= value <= MAX_SI:
+        raise _BadValue(f"expected a force from 0 to {MAX_SI:g} N", raw)
+    if abs(value) > MAX_SI:
+        raise _BadValue(f"expected a value within +-{MAX_SI:g} {si}", raw)
     return value
 
 
@@ -272,7 +329,9 @@ def _quantity(kind: str, raw: Any) -> float:
 _CONVERTERS: dict[str, Callable[[Any, bool], Any]] = {
     "name": _name,
     "number+": _number,
+    "friction": partial(_number, hi=MAX_FRICTION),
     "count": _count,
+    "modes": partial(_count, hi=MAX_MODES),
     "role": _one_of(ROLES, f"expected one of {', '.join(ROLES)}"),
     "direction": _one_of(DIRECTIONS, "expected 'ccw' (counter-clockwise) or 'cw' (clockwise)"),
     "tensioning": _one_of(TENSIONING, "expected 'fixed' (fixed centres) or 'constant'"),
@@ -291,11 +350,11 @@ def _value(kind: str, raw: Any, where: str, problems: list[str], *, from_label: 
     try:
         return _quantity(kind, raw) if convert is None else convert(raw, from_label)
     except _BadValue as bad:
-        problems.append(f"{where} = {bad.raw!r}: {bad.expected}")
+        problems.append(f"{where} = {shown(bad.raw)}: {bad.expected}")
     except QuantityError as err:
         problems.append(f"{where}: {err}")
     except (TypeError, ValueError):
-        problems.append(f"{where} = {raw!r}: expected a {kind.replace('_', ' ')}")
+        problems.append(f"{where} = {shown(raw)}: expected a {kind.replace('_', ' ')}")
     return None
 
 
@@ -306,7 +365,7 @@ def pulley_values(items: dict[str, Any], where: str, problems: list[str], *,
     for key, raw in items.items():
         k = key.lower() if tag_case else key
         if k not in PULLEY_KEYS:
-            problems.append(f"{where}: unknown key {key!r}; expected one of {', '.join(PULLEY_KEYS)}")
+            problems.append(f"{where}: unknown key {shown(key)}; expected one of {', '.join(PULLEY_KEYS)}")
             continue
         if from_label and PULLEY_KEYS[k] in ("orders", "speed_range", "point"):
             raw = [v.strip() for v in raw.split(",")] if isinstance(raw, str) else raw
@@ -314,10 +373,10 @@ def pulley_values(items: dict[str, Any], where: str, problems: list[str], *,
                 try:
                     raw = [float(v) for v in raw]
                 except ValueError:
-                    problems.append(f"{where}.{k} = {items[key]!r}: expected a point x,y")
+                    problems.append(f"{where}.{_cut(k)} = {shown(items[key])}: expected a point x,y")
                     continue
         elif from_label and isinstance(raw, str) and "," in raw and PULLEY_KEYS[k] not in ("role", "direction"):
-            problems.append(f"{where}.{k} = {raw!r}: a comma inside a quantity; use a point for decimals")
+            problems.append(f"{where}.{k} = {shown(raw)}: a comma inside a quantity; use a point for decimals")
             continue
         v = _value(PULLEY_KEYS[k], raw, f"{where}.{k}", problems, from_label=from_label)
         if v is not None:
@@ -344,7 +403,7 @@ def parse_label_words(words: list[str], where: str, problems: list[str]) -> dict
     items: dict[str, str] = {}
     for w in words:
         if "=" not in w:
-            problems.append(f"{where}: word {w!r} is not key=value")
+            problems.append(f"{where}: word {shown(w)} is not key=value")
             continue
         k, v = w.split("=", 1)
         items[k.strip().lower()] = v.strip()
@@ -357,7 +416,7 @@ def _belt(table: dict[str, Any], where: str, problems: list[str]) -> BeltSpec:
     vals: dict[str, Any] = {}
     for key, raw in table.items():
         if key not in BELT_KEYS:
-            problems.append(f"{where}: unknown key {key!r}; expected one of {', '.join(BELT_KEYS)}")
+            problems.append(f"{where}: unknown key {shown(key)}; expected one of {', '.join(BELT_KEYS)}")
             continue
         v = _value(BELT_KEYS[key], raw, f"{where}.{key}", problems)
         if v is not None:
@@ -365,7 +424,7 @@ def _belt(table: dict[str, Any], where: str, problems: list[str]) -> BeltSpec:
     if "section" in vals:
         from physics.catalogue import find_section
         if find_section(vals["section"]) is None:
-            problems.append(f"{where}.section = {vals['section']!r}: not in the catalogue "
+            problems.append(f"{where}.section = {shown(vals['section'])}: not in the catalogue "
                             f"(`spanwise catalog` lists it); give the belt's properties instead")
     return BeltSpec(**vals)
 
@@ -375,7 +434,7 @@ def _case_unique(table: dict[str, Any], where: str, problems: list[str]) -> dict
     for key in table:
         low = key.lower()
         if low in seen:
-            problems.append(f"{where}: [{seen[low]}] and [{key}] differ only in case; ids are "
+            problems.append(f"{where}: [{_cut(seen[low])}] and [{_cut(key)}] differ only in case; ids are "
                             f"matched case-insensitively")
         else:
             seen[low] = key
@@ -385,8 +444,12 @@ def _case_unique(table: dict[str, Any], where: str, problems: list[str]) -> dict
 def _layers(raw: Any, where: str, problems: list[str]) -> tuple[str, ...]:
     if isinstance(raw, str):
         raw = [raw]
+    if isinstance(raw, list) and len(raw) > MAX_LAYERS:
+        problems.append(f"{where}: {len(raw)} entries; expected at most {MAX_LAYERS} layer names "
+                        f"or patterns")
+        return ()
     if not isinstance(raw, list) or not all(isinstance(v, str) and v for v in raw):
-        problems.append(f"{where} = {raw!r}: expected a list of layer names or patterns, e.g. [\"BELT*\"]")
+        problems.append(f"{where} = {shown(raw)}: expected a list of layer names or patterns, e.g. [\"BELT*\"]")
         return ()
     return tuple(raw)
 
@@ -398,10 +461,16 @@ def _tables(data: dict[str, Any], key: str, name: str, problems: list[str]
     if not isinstance(group, dict):
         problems.append(f"{name}: {key}: expected tables [{key}.ID]")
         return []
+    if len(group) > MAX_TABLES:
+        problems.append(f"{name}: {key}: {len(group)} tables [{key}.ID]; expected at most {MAX_TABLES}")
+        return []
     _case_unique(group, f"{name}: {key}", problems)
     out = []
     for ident, table in group.items():
-        where = f"{name}: {key}.{ident}"
+        where = f"{name}: {key}.{_cut(ident)}"
+        if len(ident) > MAX_ID:
+            problems.append(f"{where}: an id of {len(ident)} characters; expected at most {MAX_ID}")
+            continue
         if not isinstance(table, dict):
             problems.append(f"{where}: expected a table [{key}.{ident}]")
             continue
@@ -419,19 +488,20 @@ def _units(raw: Any, where: str, problems: list[str]) -> str | None:
             raise ValueError
         length_factor(raw)
     except (ValueError, QuantityError):
-        problems.append(f"{where} = {raw!r}: expected a drawing unit: mm, cm, m, in or ft")
+        problems.append(f"{where} = {shown(raw)}: expected a drawing unit: mm, cm, m, in or ft")
         return None
     unit = raw.strip().lower()
     return {"inch": "in", "inches": "in"}.get(unit, unit)
 
 
 def _gravity(raw: Any, where: str, problems: list[str]) -> tuple[float, float] | None:
-    if (isinstance(raw, list) and len(raw) == 2 and all(_is_number(v) for v in raw)
+    if (isinstance(raw, list) and len(raw) == 2
+            and all(_is_number(v) and _within(v, -MAX_POINT, MAX_POINT) for v in raw)
             and math.hypot(raw[0], raw[1]) > 0):
         n = math.hypot(raw[0], raw[1])
         return (raw[0] / n, raw[1] / n)
-    problems.append(f"{where} = {raw!r}: expected a direction [x, y] in the drawing plane, "
-                    f"e.g. [0, -1]")
+    problems.append(f"{where} = {shown(raw)}: expected a direction [x, y] in the drawing plane, "
+                    f"not [0, 0], each finite within +-{MAX_POINT:g}, e.g. [0, -1]")
     return None
 
 
@@ -445,7 +515,7 @@ def _fraction(raw: Any, where: str, problems: list[str]) -> float | None:
 
 def _span_ends(raw: Any, where: str, problems: list[str]) -> str | None:
     if raw not in ("pinned", "clamped"):
-        problems.append(f"{where} = {raw!r}: expected 'pinned' or 'clamped'")
+        problems.append(f"{where} = {shown(raw)}: expected 'pinned' or 'clamped'")
         return None
     return raw
 
@@ -457,7 +527,7 @@ def _tolerances(raw: Any, where: str, problems: list[str]) -> dict[str, float] |
     vals = {}
     for k, v in raw.items():
         if k not in TOLERANCE_KEYS:
-            problems.append(f"{where}.{k}: unknown key; expected one of "
+            problems.append(f"{where}.{_cut(k)}: unknown key; expected one of "
                             f"{', '.join(sorted(TOLERANCE_KEYS))}")
             continue
         tol = _value("number+", v, f"{where}.{k}", problems)
@@ -478,7 +548,7 @@ _SETTINGS: tuple[tuple[str, Callable[[Any, str, list[str]], Any]], ...] = (
     ("resonance_margin", partial(_value, "number+")),
     ("near_critical", _fraction),
     ("sag_limit", partial(_value, "number+")),
-    ("modes", partial(_value, "count")),
+    ("modes", partial(_value, "modes")),
     ("span_ends", _span_ends),
     ("tolerances", _tolerances),
 )
@@ -488,7 +558,7 @@ def _settings(data: dict[str, Any], name: str, problems: list[str]) -> dict[str,
     """The top-level keys other than the tables ``[belt]``, ``[pulley.*]`` and ``[route.*]``."""
     for key in data:
         if key not in TOP_KEYS:
-            problems.append(f"{name}: unknown key {key!r}; expected one of {', '.join(sorted(TOP_KEYS))}")
+            problems.append(f"{name}: unknown key {shown(key)}; expected one of {', '.join(sorted(TOP_KEYS))}")
     kw: dict[str, Any] = {}
     for key, read in _SETTINGS:
         if key in data:
@@ -511,9 +581,16 @@ def _belts(data: dict[str, Any], name: str, problems: list[str]
     flat = {k: v for k, v in belt.items() if not isinstance(v, dict)}
     subs = {k: v for k, v in belt.items() if isinstance(v, dict)}
     common = _belt(flat, f"{name}: belt", problems)
+    if len(subs) > MAX_TABLES:
+        problems.append(f"{name}: belt: {len(subs)} tables [belt.LOOP]; expected at most {MAX_TABLES}")
+        subs = {}
     _case_unique(subs, f"{name}: belt", problems)
     loop_belts = {}
     for lid, table in subs.items():
+        if len(lid) > MAX_ID:
+            problems.append(f"{name}: belt.{_cut(lid)}: an id of {len(lid)} characters; expected "
+                            f"at most {MAX_ID}")
+            continue
         if lid.lower() in BELT_KEYS:
             problems.append(f"{name}: [belt.{lid}]: a loop id may not be a belt key ({lid!r})")
             continue
@@ -544,12 +621,15 @@ def _crossed(raw: Any, seq: list[str], where: str, problems: list[str]) -> list[
     if not isinstance(raw, list):
         problems.append(f"{where}.crossed: expected a list of spans \"FROM-TO\"")
         return []
+    if len(raw) > MAX_ROUTE_PULLEYS:
+        problems.append(f"{where}.crossed: {len(raw)} entries; expected at most {MAX_ROUTE_PULLEYS}")
+        return []
     spans = _spans_of(seq)
     crossed = []
     for c in raw:
         span = spans.get(c.lower()) if isinstance(c, str) else None
         if span is None:
-            problems.append(f"{where}.crossed: {c!r} is not a span FROM-TO of consecutive pulleys "
+            problems.append(f"{where}.crossed: {shown(c)} is not a span FROM-TO of consecutive pulleys "
                             f"of this route")
         else:
             crossed.append(span)
@@ -560,23 +640,35 @@ def _route(lid: str, table: dict[str, Any], where: str, problems: list[str]) -> 
     """One ``[route.LOOP]`` table; None when it names no usable pulleys."""
     for k in table:
         if k not in ROUTE_KEYS:
-            problems.append(f"{where}: unknown key {k!r}; expected pulleys, back, crossed")
+            problems.append(f"{where}: unknown key {shown(k)}; expected pulleys, back, crossed")
     seq = table.get("pulleys")
-    if not isinstance(seq, list) or len(seq) < 2 or not all(isinstance(v, str) for v in seq):
-        problems.append(f"{where}.pulleys: expected at least two pulley ids in travel order")
+    if isinstance(seq, list) and len(seq) > MAX_ROUTE_PULLEYS:
+        problems.append(f"{where}.pulleys: {len(seq)} entries; expected at most {MAX_ROUTE_PULLEYS} "
+                        f"pulley ids")
+        return None
+    if not isinstance(seq, list) or len(seq) < 2 or not all(_is_id(v) for v in seq):
+        problems.append(f"{where}.pulleys: expected at least two pulley ids (of at most {MAX_ID} "
+                        f"characters) in travel order")
         return None
     back = table.get("back", [])
+    if isinstance(back, list) and len(back) > MAX_ROUTE_PULLEYS:
+        problems.append(f"{where}.back: {len(back)} entries; expected at most {MAX_ROUTE_PULLEYS}")
+        back = []
     if not isinstance(back, list) or not all(isinstance(v, str) for v in back):
         problems.append(f"{where}.back: expected a list of pulley ids")
         back = []
     crossed = _crossed(table.get("crossed", []), seq, where, problems)
-    lower_seq = [v.lower() for v in seq]
+    lower_seq = {v.lower() for v in seq}
     for b in back:
         if b.lower() not in lower_seq:
-            problems.append(f"{where}.back: {b!r} is not in the route's pulleys")
+            problems.append(f"{where}.back: {shown(b)} is not in the route's pulleys")
     if lid.lower() in BELT_KEYS:
         problems.append(f"{where}: a loop id may not be a belt key ({lid!r})")
     return RouteSpec(lid, tuple(seq), tuple(back), tuple(crossed))
+
+
+def _is_id(v: Any) -> bool:
+    return isinstance(v, str) and len(v) <= MAX_ID
 
 
 def _routes(data: dict[str, Any], name: str, problems: list[str]) -> dict[str, RouteSpec]:
@@ -594,15 +686,19 @@ def parse_spec(data: dict[str, Any], name: str) -> Spec:
 
     Every problem is collected, in the order: unknown top-level keys, the settings (in the
     order of ``_SETTINGS``), ``[belt]``, ``[pulley.*]``, ``[route.*]``; then all are raised
-    together as one :class:`~layout.errors.SpecError`.
+    together as one :class:`~layout.errors.SpecError` (at most ``MAX_PROBLEMS`` lines and
+    one more counting the rest).
     """
-    problems: list[str] = []
+    problems = _Problems()
     settings = _settings(data, name, problems)
     belt, loop_belts = _belts(data, name, problems)
     pulleys = _pulleys(data, name, problems)
     routes = _routes(data, name, problems)
+    if problems.dropped:
+        list.append(problems, f"{name}: {problems.dropped} more problems not shown (the first "
+                              f"{MAX_PROBLEMS} are listed)")
     if problems:
-        raise SpecError(problems)
+        raise SpecError(list(problems))
     return Spec(path=name, belt=belt, loop_belts=loop_belts, pulleys=pulleys, routes=routes,
                 **settings)
 
@@ -620,14 +716,36 @@ def load_spec(path: str | Path) -> Spec:
         raise SpecError(f"{p}: is not a regular file (a folder, a pipe or a device); expected a spec "
                         f"file (TOML)")
     try:
-        text = p.read_text(encoding="utf-8")
+        with p.open("rb") as f:
+            raw = f.read(MAX_SPEC_BYTES + 1)
+        if len(raw) > MAX_SPEC_BYTES:
+            raise SpecError(f"{p}: the spec file is over {MAX_SPEC_BYTES:,} bytes; expected a spec "
+                            f"file of at most {MAX_SPEC_BYTES:,} bytes")
+        text = raw.decode("utf-8")
     except (OSError, UnicodeDecodeError) as err:
-        raise SpecError(f"{p}: cannot read the spec file ({err})") from err
+        raise SpecError(f"{p}: cannot read the spec file ({_cut(str(err))})") from err
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as err:
-        raise SpecError(f"{p}: not valid TOML ({err})") from err
+        raise SpecError(f"{p}: not valid TOML ({_cut(str(err))})") from err
+    except RecursionError:
+        raise SpecError(f"{p}: {_deepest(text)}: tables or arrays nested too deeply for the TOML "
+                        f"reader; expected a spec nested a few levels") from None
+    except ValueError as err:               # e.g. an integer of over 4300 digits
+        raise SpecError(f"{p}: not valid TOML ({_cut(str(err))})") from err
     return parse_spec(data, str(p))
+
+
+_KEY_AT = re.compile(r"^\s*\[*\s*([^=\[\]{}]*?)\s*(?:=|\.|\]|$)")
+
+
+def _deepest(text: str) -> str:
+    """Where a spec nests deepest: "line N (key K)", the line with the most brackets."""
+    lines = text.splitlines() or [""]
+    n = max(range(len(lines)), key=lambda i: lines[i].count("[") + lines[i].count("{"))
+    m = _KEY_AT.match(lines[n][:MAX_SPEC_BYTES])
+    key = m.group(1) if m and m.group(1) else "?"
+    return f"line {n + 1} (key {shown(key)})"
 
 
 def valid_id(text: str) -> bool:
