@@ -159,6 +159,8 @@ def _check_once(args: argparse.Namespace) -> tuple[Any, list[str]]:
     if args.grip_margin is not None and not 0 < args.grip_margin <= 1:
         problems.append(f"--grip-margin {args.grip_margin}: expected a fraction in (0, 1]")
     outputs = plan_outputs(args, problems)
+    if problems:                          # refused before any work: nothing read, nothing written
+        raise FatalInput(problems)
     try:
         report, written = run_check(Path(args.drawing), outputs, spec=args.spec, grip_margin=args.grip_margin,
                                     force=args.force)
@@ -234,19 +236,6 @@ def _strip(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
-def _output_problems(out: Path | None, src: Path, force: bool, *, ours: bool = False) -> list[str]:
-    """Reasons not to write ``out`` (one line each)."""
-    if out is None:
-        return []
-    if out.exists() and src.exists() and out.resolve() == src.resolve():
-        return [f"{out}: is the input drawing; spanwise never writes over its input here"]
-    if not out.parent.exists() and str(out.parent):
-        return [f"{out}: folder {out.parent} does not exist"]
-    if out.exists() and not force and not ours:
-        return [f"{out}: exists and was not written by spanwise; use --force to overwrite it"]
-    return []
-
-
 def _suggest(args: argparse.Namespace) -> int:
     import gc
 
@@ -255,22 +244,27 @@ def _suggest(args: argparse.Namespace) -> int:
 
     from .errors import FatalInput
     from .idler import (console_lines, find_span, length_option, place, placement_dict, region_polygons,
-                        suggestion_dict, write_suggestions)
-    from .output import write_atomic
+                        suggestion_dict, suggestions_document)
+    from .output import document_bytes, write_files
     from .pipeline import check_drawing
     from .report import dumps
-    from .runner import _is_our_json
+    from .runner import Outputs, output_path, output_problems, spec_in_use
 
     src = Path(args.drawing)
-    out = Path(args.out) if args.out else None
-    out_json = Path(args.json) if args.json else None
-    problems = _output_problems(out, src, args.force)
-    problems += _output_problems(out_json, src, args.force, ours=bool(out_json and _is_our_json(out_json)))
+    problems: list[str] = []
+    if src.is_dir():
+        return _fatal([f"{src}: is a folder; spanwise suggest-idler reads one DXF drawing"])
+    out = output_path(args.out, "--out", problems)
+    out_json = output_path(args.json, "--json", problems)
+    # the same refusals as check: the drawing, the spec, one file asked for twice, a file that
+    # is not a regular file (even with --force), a file spanwise did not write
+    problems += output_problems(Outputs(out=out, json=out_json), src, spec_in_use(src, args.spec), args.force)
     diameter = length_option("--diameter", args.diameter, problems, positive=True)
     clearance = length_option("--clearance", args.clearance, problems, positive=False)
     if args.count < 1:
         problems.append(f"--count {args.count}: expected at least 1")
     try:
+        # the drawing is read once: the document drawn into is the one analysed
         checked = check_drawing(src, spec=args.spec, keep_document=out is not None)
         ref = find_span(checked, args.span, args.loop)
         region = region_polygons(checked, args.region) if args.region else None
@@ -285,11 +279,18 @@ def _suggest(args: argparse.Namespace) -> int:
         return _fatal([f"--span {args.span}: {err}"])
     found = list(placement.suggestions)
     rows = [suggestion_dict(checked, s, k + 1) for k, s in enumerate(found)]
+    lines = console_lines(str(src), checked, placement, found, rows, quiet=args.quiet)
+    # every output made in memory first, then written together: a failure leaves none behind
+    files: list[tuple[Path, bytes | str, int | None]] = []
     if out_json is not None:
-        write_atomic(out_json, dumps(placement_dict(str(src), placement, rows)))
+        files.append((out_json, dumps(placement_dict(str(src), placement, rows)), None))
     if out is not None and found:
-        write_suggestions(checked, found, out)
-    for line in console_lines(str(src), checked, placement, found, rows, quiet=args.quiet):
+        files.append((out, document_bytes(suggestions_document(checked, found)), None))
+    try:
+        write_files(files)
+    except OSError as err:
+        return _fatal([f"{err.filename or src}: cannot write an output ({err.strerror or err})"])
+    for line in lines:
         print(line)
     sys.stdout.flush()
     if not placement.needed:
@@ -338,6 +339,71 @@ def main(argv: list[str] | None = None) -> int:
         logging.getLogger(name).addHandler(logging.NullHandler())
         logging.getLogger(name).propagate = False
     args = _parser().parse_args(argv)
+    previous = _interrupt_on_signals()
+    try:
+        return _dispatch(args)
+    except KeyboardInterrupt as err:      # Ctrl-C, SIGTERM, SIGHUP: every temporary file is gone
+        how = f" ({err.signal_name})" if isinstance(err, Signalled) else ""
+        print(f"spanwise: interrupted{how}", file=sys.stderr)
+        return EXIT_FATAL
+    finally:
+        _restore_signals(previous)
+
+
+class Signalled(KeyboardInterrupt):
+    """SIGTERM or SIGHUP, raised where the program is, as Ctrl-C is: the same clean-up runs
+    (``write_atomic`` removes its temporary file, ``audit`` stops its children)."""
+
+    def __init__(self, signal_name: str) -> None:
+        super().__init__(signal_name)
+        self.signal_name = signal_name
+
+
+def _raise_signalled(signum: int, frame: Any) -> None:
+    import signal
+
+    for sig in _HANDLED:                  # once: a second signal must not cut the clean-up short
+        signal.signal(sig, _ignore_signal)
+    raise Signalled(signal.Signals(signum).name)
+
+
+def _ignore_signal(signum: int, frame: Any) -> None:
+    pass
+
+
+_HANDLED: list[int] = []
+
+
+def _interrupt_on_signals() -> dict[int, Any]:
+    """Turn SIGTERM and SIGHUP into :class:`Signalled`; return the handlers they had."""
+    import signal
+
+    import threading
+
+    previous: dict[int, Any] = {}
+    if threading.current_thread() is not threading.main_thread():
+        return previous                   # main() called from a thread: signals are not ours
+    for name in ("SIGTERM", "SIGHUP"):
+        sig = getattr(signal, name, None)
+        if sig is None:
+            continue
+        old = signal.getsignal(sig)
+        if old is signal.SIG_IGN:         # nohup: the user asked for this one to be ignored
+            continue
+        previous[sig] = old
+        signal.signal(sig, _raise_signalled)
+    _HANDLED[:] = list(previous)
+    return previous
+
+
+def _restore_signals(previous: dict[int, Any]) -> None:
+    import signal
+
+    for sig, old in previous.items():
+        signal.signal(sig, old if old is not None else signal.SIG_DFL)
+
+
+def _dispatch(args: argparse.Namespace) -> int:
     try:
         if args.command == "check":
             return _check(args)
@@ -353,9 +419,6 @@ def main(argv: list[str] | None = None) -> int:
             from .audit_cli import run_audit
 
             return run_audit(args, _fatal)
-    except KeyboardInterrupt:
-        print("spanwise: interrupted", file=sys.stderr)
-        return EXIT_FATAL
     except BrokenPipeError:                # the reader of our output went away: end quietly
         _silence_stdout()
         return EXIT_OK

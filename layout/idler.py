@@ -26,7 +26,7 @@ from .pipeline import Checked, options_for
 from .quantity import QuantityError, parse_quantity
 from .recognize import layer_matches
 
-__all__ = ["IDLER_LAYER", "PATH_LAYER", "find_span", "region_polygons", "suggest", "place", "write_suggestions",
+__all__ = ["IDLER_LAYER", "PATH_LAYER", "find_span", "region_polygons", "suggest", "place", "suggestions_document", "write_suggestions",
            "suggestion_dict", "placement_dict", "console_lines", "length_option"]
 
 #: spanwise's own layers for suggested idlers and the belt path through them.
@@ -263,16 +263,18 @@ def console_lines(src: str, checked: Checked, placement: Placement, suggestions:
     return out
 
 
-def write_suggestions(checked: Checked, suggestions: list[IdlerSuggestion], out: Path) -> None:
-    """A copy of the drawing with the suggested idlers and their belt paths on our layers
-    (each entity tagged with spanwise's XDATA, so spanwise never reads them as drawing)."""
-    import ezdxf
-
+def suggestions_document(checked: Checked, suggestions: list[IdlerSuggestion]) -> Any:
+    """The drawing's document, read once by ``check_drawing(..., keep_document=True)``, with
+    the suggested idlers and their belt paths added on our layers (each entity tagged with
+    spanwise's XDATA, so spanwise never reads them as drawing) and the placeholder of the
+    seal (:func:`layout.output.seal`), so a later run knows the copy as its own."""
     from ._own import APPID
     from .draw import add_belt_path
-    from .output import save_document
+    from .output import DIGEST_PLACEHOLDER
 
-    doc = checked.document if checked.document is not None else ezdxf.readfile(checked.model.drawing.path)
+    doc = checked.document
+    if doc is None:
+        raise ValueError("the drawing's document was not kept: check it with keep_document=True")
     if APPID not in doc.appids:
         doc.appids.add(APPID)
     for name, color in ((IDLER_LAYER, 3), (PATH_LAYER, 4)):
@@ -292,6 +294,14 @@ def write_suggestions(checked: Checked, suggestions: list[IdlerSuggestion], out:
         centers = [model.to_drawing(drive.pulleys[p].center_m) for p in loop.pulleys]
         radii = [drive.pulleys[p].radius_m / model.factor for p in loop.pulleys]
         added += add_belt_path(msp, centers, radii, loop.turns, form="spans", layer=PATH_LAYER)
-    for e in added:
-        e.set_xdata(APPID, [(1000, "suggested idler")])
-    save_document(doc, out)
+    for k, e in enumerate(added):
+        tags = [(1000, "suggested idler")] + ([(1000, DIGEST_PLACEHOLDER)] if k == 0 else [])
+        e.set_xdata(APPID, tags)
+    return doc
+
+
+def write_suggestions(checked: Checked, suggestions: list[IdlerSuggestion], out: Path) -> None:
+    """Write :func:`suggestions_document` to ``out`` atomically, sealed."""
+    from .output import save_document
+
+    save_document(suggestions_document(checked, suggestions), out)

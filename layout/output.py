@@ -10,15 +10,20 @@ went on working in (which it refuses without ``--force``).
 
 from __future__ import annotations
 
+import contextlib
+import errno
 import hashlib
 import os
 import re
 import shutil
+import signal
+import stat
 import tempfile
+import threading
 from pathlib import Path
-from typing import Any
+from typing import Any, Iterator
 
-__all__ = ["write_atomic", "current_umask", "backup", "DIGEST_PLACEHOLDER", "seal", "is_sealed",
+__all__ = ["write_atomic", "write_files", "NotRegularFile", "document_bytes", "current_umask", "backup", "DIGEST_PLACEHOLDER", "seal", "is_sealed",
            "same_file", "save_document"]
 
 #: Stands in the written bytes where their digest goes; the digest is of the bytes with it.
@@ -29,31 +34,111 @@ _ZERO = b"0" * 64
 
 def current_umask() -> int:
     """The process's umask (read by setting and restoring it)."""
-    mask = os.umask(0o022)
-    os.umask(mask)
+    with _signals_held():              # an interruption must not leave the umask changed
+        mask = os.umask(0o022)
+        os.umask(mask)
     return mask
+
+
+#: Temporary files are ``.sw-XXXXXXXX.tmp`` in the target's folder: short, so that any legal
+#: output name works (the temporary name does not grow with it), and hidden.
+TMP_PREFIX, TMP_SUFFIX = ".sw-", ".tmp"
+
+#: Signals whose handlers (``spanwise``'s command line turns them into KeyboardInterrupt)
+#: must not run between creating a temporary file and noting its name for the clean-up.
+_DEFERRED = tuple(getattr(signal, n) for n in ("SIGINT", "SIGTERM", "SIGHUP") if hasattr(signal, n))
+
+
+class NotRegularFile(OSError):
+    """The target exists and is not a regular file (a folder, device, pipe or socket): it is
+    never replaced, whatever ``--force`` says."""
+
+    def __init__(self, path: str | Path) -> None:
+        super().__init__(errno.EEXIST, "exists and is not a regular file (a folder, device or pipe)", str(path))
+
+
+def _check_regular(target: Path) -> None:
+    try:
+        st = os.stat(target)
+    except FileNotFoundError:
+        return
+    except OSError:
+        return                  # the replace below reports what is wrong
+    if not stat.S_ISREG(st.st_mode):
+        raise NotRegularFile(target)
+
+
+@contextlib.contextmanager
+def _signals_held() -> Iterator[None]:
+    """Hold back the signals of :data:`_DEFERRED` (delivered when the block ends); a no-op
+    outside the main thread or where the platform has no signal mask."""
+    block = hasattr(signal, "pthread_sigmask") and threading.current_thread() is threading.main_thread()
+    old = signal.pthread_sigmask(signal.SIG_BLOCK, _DEFERRED) if block else None
+    try:
+        yield
+    finally:
+        if old is not None:
+            signal.pthread_sigmask(signal.SIG_SETMASK, old)
+
+
+def _temp_beside(target: Path, staged: list[tuple[str, Path]]) -> int:
+    """A new temporary file in ``target``'s folder, noted in ``staged`` (for the clean-up)
+    with the signals of :data:`_DEFERRED` held back, so an interruption never falls between
+    its creation and its noting; returns its descriptor."""
+    folder = str(target.parent) if str(target.parent) else "."
+    with _signals_held():
+        fd, tmp = tempfile.mkstemp(prefix=TMP_PREFIX, suffix=TMP_SUFFIX, dir=folder)
+        staged.append((tmp, target))
+        return fd
+
+
+def _discard(tmp: str) -> None:
+    try:
+        os.unlink(tmp)
+    except OSError:
+        pass
+
+
+def _fill(fd: int, tmp: str, raw: bytes, mode: int | None) -> None:
+    with os.fdopen(fd, "wb") as fh:
+        fh.write(raw)
+    os.chmod(tmp, mode if mode is not None else 0o666 & ~current_umask())
 
 
 def write_atomic(path: str | Path, data: bytes | str, *, mode: int | None = None) -> None:
     """Write ``data`` to ``path`` atomically.
 
     The file gets ``mode`` when given, else the permissions a new file gets under the
-    user's umask (``0o666 & ~umask``), not the 0600 of a temporary file.
+    user's umask (``0o666 & ~umask``), not the 0600 of a temporary file. A target that
+    exists and is not a regular file is never replaced (:class:`NotRegularFile`). However
+    the write ends (an error, Ctrl-C, SIGTERM turned into ``KeyboardInterrupt``), the
+    temporary file is removed and the target is left as it was.
     """
-    target = Path(path)
-    raw = data.encode("utf-8") if isinstance(data, str) else data
-    folder = str(target.parent) if str(target.parent) else "."
-    fd, tmp = tempfile.mkstemp(prefix=".spanwise-", suffix=".tmp", dir=folder)
+    write_files([(path, data, mode)])
+
+
+def write_files(items: list[tuple[str | Path, bytes | str, int | None]]) -> None:
+    """Write several files ``(path, data, mode)`` as :func:`write_atomic` does, all or none
+    as far as the file system allows: every temporary file is written first, and only when
+    all are complete are they moved into place, one ``os.replace`` each."""
+    staged: list[tuple[str, Path]] = []
     try:
-        with os.fdopen(fd, "wb") as fh:
-            fh.write(raw)
-        os.chmod(tmp, mode if mode is not None else 0o666 & ~current_umask())
-        os.replace(tmp, target)
+        for path, data, mode in items:
+            target = Path(path)
+            _check_regular(target)
+            raw = data.encode("utf-8") if isinstance(data, str) else data
+            fd = _temp_beside(target, staged)
+            _fill(fd, staged[-1][0], raw, mode)
+        for _, target in staged:
+            _check_regular(target)
+        with _signals_held():           # every file moved into place, or (interrupted before) none
+            while staged:
+                tmp, target = staged[0]
+                os.replace(tmp, target)
+                staged.pop(0)
     except BaseException:
-        try:
-            os.unlink(tmp)
-        except OSError:
-            pass
+        for tmp, _ in staged:
+            _discard(tmp)
         raise
 
 
@@ -91,11 +176,13 @@ def is_sealed(path: str | Path) -> bool:
         raw = p.read_bytes()
     except OSError:
         return False
-    m = _DIGEST.search(raw)
-    if m is None:
-        return False
-    unsealed = raw[:m.start(1)] + _ZERO + raw[m.end(1):]
-    return hashlib.sha256(unsealed).hexdigest().encode("ascii") == m.group(1)
+    # a copy of a drawing that was itself spanwise's output may hold that output's old
+    # digest beside ours: the file is ours when any one digest in it is of its own bytes
+    for m in _DIGEST.finditer(raw):
+        unsealed = raw[:m.start(1)] + _ZERO + raw[m.end(1):]
+        if hashlib.sha256(unsealed).hexdigest().encode("ascii") == m.group(1):
+            return True
+    return False
 
 
 def same_file(a: str | Path, b: str | Path) -> bool:
@@ -106,9 +193,9 @@ def same_file(a: str | Path, b: str | Path) -> bool:
         return False
 
 
-def save_document(doc: Any, path: str | Path, *, mode: int | None = None) -> None:
-    """Save an ezdxf document to ``path`` atomically, sealed with its digest when it holds
-    the placeholder (see :func:`seal`)."""
+def document_bytes(doc: Any) -> bytes:
+    """An ezdxf document as the bytes :func:`save_document` writes: encoded for its DXF
+    version and sealed with its digest when it holds the placeholder (see :func:`seal`)."""
     import io
 
     stream = io.StringIO()
@@ -116,7 +203,13 @@ def save_document(doc: Any, path: str | Path, *, mode: int | None = None) -> Non
     text = stream.getvalue()
     encoding = "utf-8" if doc.dxfversion >= "AC1021" else doc.output_encoding
     raw = text.encode(encoding, errors="dxfreplace" if _has_dxfreplace() else "replace")
-    write_atomic(path, seal(raw), mode=mode)
+    return seal(raw)
+
+
+def save_document(doc: Any, path: str | Path, *, mode: int | None = None) -> None:
+    """Save an ezdxf document to ``path`` atomically, sealed with its digest when it holds
+    the placeholder (see :func:`seal`)."""
+    write_atomic(path, document_bytes(doc), mode=mode)
 
 
 def _has_dxfreplace() -> bool:

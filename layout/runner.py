@@ -8,6 +8,7 @@ not a regular file, or a file spanwise did not write (or that was changed since)
 
 from __future__ import annotations
 
+import os
 import re
 
 from dataclasses import dataclass
@@ -15,11 +16,12 @@ from pathlib import Path
 from typing import Any
 
 from .errors import FatalInput
-from .output import DIGEST_PLACEHOLDER, backup, is_sealed, same_file, save_document, seal, write_atomic
+from .output import DIGEST_PLACEHOLDER, backup, document_bytes, is_sealed, same_file, seal, write_files
 
-__all__ = ["Outputs", "plan_outputs", "output_problems", "run_check", "spec_in_use"]
+__all__ = ["Outputs", "output_path", "plan_outputs", "output_problems", "run_check", "spec_in_use"]
 
 STDOUT = "-"
+_KINDS = (("--out", "dxf"), ("--overlay", "dxf"), ("--html", "html"), ("--json", "json"))
 
 
 @dataclass(frozen=True, slots=True)
@@ -40,13 +42,18 @@ class Outputs:
 
     def files(self) -> list[tuple[str, Path]]:
         """The output files with their kind (``dxf``, ``json``, ``html``); not stdout."""
-        rows = [("dxf", self.out), ("dxf", self.overlay), ("html", self.html)]
-        if self.json not in (None, STDOUT):
-            rows.append(("json", Path(self.json)))
-        return [(k, p) for k, p in rows if p is not None]
+        return [(k, p) for _, k, p in self.named_files()]
+
+    def named_files(self) -> list[tuple[str, str, Path]]:
+        """The output files with the option naming each and its kind; not stdout."""
+        js = None if self.json in (None, STDOUT) else Path(self.json)
+        rows = [("--out", self.out), ("--overlay", self.overlay), ("--html", self.html), ("--json", js)]
+        return [(o, dict(_KINDS)[o], p) for o, p in rows if p is not None]
 
 
-def _path(v: str | None, option: str, problems: list[str]) -> Path | None:
+def output_path(v: str | None, option: str, problems: list[str]) -> Path | None:
+    """The output file an option names (``None``: not given); an empty name adds one line
+    to ``problems``."""
     if v is None:
         return None
     if not v.strip():
@@ -58,11 +65,13 @@ def _path(v: str | None, option: str, problems: list[str]) -> Path | None:
 def plan_outputs(args: Any, problems: list[str]) -> Outputs:
     """The outputs the command line asks for: with none of --out, --overlay, --in-place,
     --read-only, --json or --html, the annotated copy ``NAME.spanwise.dxf`` beside the drawing."""
-    out = _path(args.out, "--out", problems)
-    overlay = _path(args.overlay, "--overlay", problems)
-    html = _path(args.html, "--html", problems)
-    js: Path | str | None = args.json if args.json == STDOUT else _path(args.json, "--json", problems)
-    nothing = not (out or overlay or args.in_place or args.read_only or args.json is not None or html)
+    out = output_path(args.out, "--out", problems)
+    overlay = output_path(args.overlay, "--overlay", problems)
+    html = output_path(args.html, "--html", problems)
+    js: Path | str | None = args.json if args.json == STDOUT else output_path(args.json, "--json", problems)
+    # an option given with an empty name is refused above, not taken as "none given"
+    nothing = not (args.out is not None or args.overlay is not None or args.in_place or args.read_only
+                   or args.json is not None or args.html is not None)
     if nothing:
         src = Path(args.drawing)
         out = src.with_name(src.stem + ".spanwise.dxf")
@@ -119,14 +128,22 @@ def output_problems(outputs: Outputs, drawing: Path, spec: Path | None, force: b
     (``Drawing.rebuilt``), which must not replace the user's file (known once it is read).
     """
     problems = []
-    seen: dict[str, Path] = {}
-    for kind, p in outputs.files():
-        key = str(p.resolve()) if p.parent.is_dir() else str(p)
-        if key in seen:
-            problems.append(f"{p}: asked for twice (as two different outputs); give each its own file")
+    groups: list[list[tuple[str, str, Path]]] = []
+    for option, kind, p in outputs.named_files():
+        # one file however it is spelt: relative or absolute, through a symlink, a hard link
+        key = os.path.realpath(p) if p.parent.is_dir() else os.path.abspath(p)
+        for g in groups:
+            if g[0][0] == key or same_file(p, g[0][2]):
+                g.append((key, option, p))
+                break
+        else:
+            groups.append([(key, option, p)])
+    for g in groups:
+        p = g[0][2]
+        if len(g) > 1:
+            problems.append(f"{p}: named by both {' and '.join(o for _, o, _ in g)}; give each output its own file")
             continue
-        seen[key] = p
-        problem = _target_problem(kind, p, drawing, spec, force)
+        problem = _target_problem(dict(_KINDS)[g[0][1]], p, drawing, spec, force)
         if problem:
             problems.append(problem)
     if outputs.in_place and drawing.exists() and not drawing.is_file():
@@ -170,32 +187,42 @@ def run_check(drawing: Path, outputs: Outputs, *, spec: str | None, grip_margin:
 
 
 def write_outputs(report: Any, outputs: Outputs, drawing: Path) -> list[str]:
-    """Write every output of ``report``; return one line per file written."""
+    """Write every output of ``report``; return one line per file written.
+
+    Every file is made in memory first and then written by :func:`write_files`: all the
+    temporary files, then all moved into place, so a failure or an interruption part way
+    leaves no output half done and none of the old ones replaced.
+    """
     from .report import dumps
 
+    files: list[tuple[Path | str, bytes | str, int | None]] = []
     done = []
     if outputs.json is not None and outputs.json != STDOUT:
-        write_atomic(outputs.json, dumps(report.to_dict()))
+        files.append((outputs.json, dumps(report.to_dict()), None))
         done.append(f"JSON report {outputs.json}")
     if outputs.html is not None:
-        write_atomic(outputs.html, seal(_html(report).encode("utf-8")))
+        files.append((outputs.html, seal(_html(report).encode("utf-8")), None))
         done.append(f"HTML report {outputs.html}")
+    in_place = None
     if outputs.out is not None or outputs.in_place:
         from .annotate import annotate
 
-        doc = annotate(report.document, report)
+        raw = document_bytes(annotate(report.document, report))
         if outputs.in_place:
-            saved = backup(drawing)
-            save_document(doc, drawing, mode=drawing.stat().st_mode & 0o7777)
-            done.append(f"annotations into {drawing} (backup {saved})")
+            in_place = raw
         else:
-            save_document(doc, outputs.out)
+            files.append((outputs.out, raw, None))
             done.append(f"annotated copy {outputs.out}")
     if outputs.overlay is not None:
         from .annotate import overlay
 
-        save_document(overlay(report), outputs.overlay)
+        files.append((outputs.overlay, document_bytes(overlay(report)), None))
         done.append(f"overlay {outputs.overlay}")
+    if in_place is not None:
+        saved = backup(drawing)
+        files.append((drawing, in_place, drawing.stat().st_mode & 0o7777))
+        done.append(f"annotations into {drawing} (backup {saved})")
+    write_files(files)
     return done
 
 
