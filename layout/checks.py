@@ -60,7 +60,13 @@ def check_twists(model: Model, results: Results) -> list[Finding]:
 
 
 def check_pulley_crossing(model: Model, results: Results) -> list[Finding]:
-    """A span passing through a pulley of its own loop that it does not wrap."""
+    """A span passing through a pulley of its own loop that it does not wrap.
+
+    Candidates come from a spatial index (``shapely.STRtree`` of the pulleys' bounding
+    boxes): a span can only pass inside a circle whose box its own box meets, so a loop of
+    ``n`` pulleys costs about ``n log n``, not ``n**2``. Findings are in span order, then
+    pulley order, as a check of every span against every pulley would give them.
+    """
     out: list[Finding] = []
     circ = model.drawing.circles
     for lp in model.loops:
@@ -71,25 +77,28 @@ def check_pulley_crossing(model: Model, results: Results) -> list[Finding]:
         n = len(lp.pulleys)
         lines = shapely.linestrings(np.stack([starts, ends], axis=1))
         centers = np.asarray([(circ.x[c], circ.y[c]) for c in lp.circles])
-        for k in range(n):
+        radii = np.asarray(lp.radii, dtype=float)
+        boxes = shapely.box(centers[:, 0] - radii, centers[:, 1] - radii, centers[:, 0] + radii,
+                            centers[:, 1] + radii)
+        ks, js = shapely.STRtree(boxes).query(lines)
+        for k, j in sorted(zip(ks.tolist(), js.tolist())):
             ends_c = {lp.circles[k], lp.circles[(k + 1) % n]}
-            for j in range(n):
-                c = lp.circles[j]
-                if c in ends_c or any(np.hypot(*(centers[j] - (circ.x[e], circ.y[e]))) <= model.tol.join * lp.radii[j]
-                                      for e in ends_c):
-                    continue
-                r = lp.radii[j]
-                dist = float(shapely.distance(lines[k], shapely.points(centers[j])))
-                if dist < r * (1.0 - model.tol.tangent_offset):
-                    near = shapely.line_interpolate_point(lines[k], shapely.line_locate_point(
-                        lines[k], shapely.points(centers[j])))
-                    sid = f"{lp.pulleys[k]}-{lp.pulleys[(k + 1) % n]}"
-                    out.append(Finding(
-                        Severity.ERROR, "span-hits-pulley",
-                        f"loop {lp.id}: span {sid} passes {r - dist:.6g} units inside pulley {lp.pulleys[j]} "
-                        f"(radius {r:.6g}), which this loop does not wrap there",
-                        at=(float(shapely.get_x(near)), float(shapely.get_y(near))),
-                        refs=(lp.id, sid, lp.pulleys[j])))
+            c = lp.circles[j]
+            if c in ends_c or any(np.hypot(*(centers[j] - (circ.x[e], circ.y[e]))) <= model.tol.join * lp.radii[j]
+                                  for e in ends_c):
+                continue
+            r = lp.radii[j]
+            dist = float(shapely.distance(lines[k], shapely.points(centers[j])))
+            if dist < r * (1.0 - model.tol.tangent_offset):
+                near = shapely.line_interpolate_point(lines[k], shapely.line_locate_point(
+                    lines[k], shapely.points(centers[j])))
+                sid = f"{lp.pulleys[k]}-{lp.pulleys[(k + 1) % n]}"
+                out.append(Finding(
+                    Severity.ERROR, "span-hits-pulley",
+                    f"loop {lp.id}: span {sid} passes {r - dist:.6g} units inside pulley {lp.pulleys[j]} "
+                    f"(radius {r:.6g}), which this loop does not wrap there",
+                    at=(float(shapely.get_x(near)), float(shapely.get_y(near))),
+                    refs=(lp.id, sid, lp.pulleys[j])))
     return out
 
 

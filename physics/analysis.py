@@ -16,6 +16,7 @@ SI message; ``layout.wording`` words them in the trade's units (rpm, mm, kW).
 from __future__ import annotations
 
 import math
+import warnings
 from dataclasses import dataclass, field, replace
 
 import numpy as np
@@ -26,9 +27,9 @@ from . import tension as ten
 from .catalogue import find_section
 from .findings import Finding, Severity
 from . import spans as sp
-from .kinematics import Kinematics, loop_torques, solve_kinematics
+from .kinematics import Kinematics, _load_torque, loop_torques, solve_kinematics
 from .length import AdjustResult, nearest_stock, solve_adjust
-from .model import Drive, LoadLaw, Loop, Role, Side, SpanEnds, Tensioning, choice
+from .model import Drive, LoadLaw, Loop, Pulley, Role, Side, SpanEnds, Tensioning, choice
 from .resonance import RESONANCE_MARGIN, Band, find_bands
 from .tension import GripState
 
@@ -72,6 +73,13 @@ TENSION_HIGH_FRACTION = 0.5
 TENSIONER_MIN_WRAP_RAD = math.radians(10.0)
 #: A driver's given power may differ from what its loads take by this fraction.
 POWER_TOLERANCE = 0.02
+#: Peak memory (bytes) the moving-beam batches of spans x speeds may take: the sweep and the
+#: refinement are solved in chunks of points so a long serpentine stays within it.
+SWEEP_BUDGET_BYTES = 100 * 2**20
+#: Bytes per point of a beam batch at the most Galerkin terms: the ``(2n, 2n)`` complex
+#: Hermitian matrix (16 bytes an entry), with room for eigvalsh's copy and workspace (3x;
+#: measured peaks are about 2.5 times the matrix).
+_BEAM_POINT_BYTES = 3 * 16 * (2 * sp.GALERKIN_MAX_TERMS) ** 2
 
 
 @dataclass(frozen=True, slots=True)
@@ -570,9 +578,39 @@ def _end_tensions(g: geo.LoopGeometry, P: NDArray[np.float64], mass: float, grav
     return np.roll(P_end, 1, axis=1), P_start
 
 
+def _span_frequencies(P: NDArray[np.float64], T: NDArray[np.float64], mass: float, L: NDArray[np.float64],
+                      v: NDArray[np.float64], modes: int, *, bending_nm2: float | None, ends: SpanEnds
+                      ) -> NDArray[np.float64]:
+    """:func:`physics.spans.span_frequencies` over broadcast points, in chunks of at most
+    :data:`SWEEP_BUDGET_BYTES` of beam batch (each point is solved alone, so the numbers do
+    not depend on the chunks); one :class:`~physics.spans.GalerkinCapWarning` for them all."""
+    if not bending_nm2:
+        return sp.span_frequencies(P, T, mass, L, v, modes, bending_nm2=bending_nm2, ends=ends)
+    Pb, Lb, vb = np.broadcast_arrays(np.asarray(P, float), np.asarray(L, float), np.asarray(v, float))
+    shape = Pb.shape
+    Pf, Lf, vf = Pb.reshape(-1), Lb.reshape(-1), vb.reshape(-1)
+    step = max(1, SWEEP_BUDGET_BYTES // _BEAM_POINT_BYTES)
+    out = np.zeros((Pf.size, modes))
+    capped, change = 0, []
+    for a in range(0, Pf.size, step):
+        f, conv = sp.beam_frequencies(Pf[a:a + step], mass, Lf[a:a + step], bending_nm2, vf[a:a + step], modes,
+                                      ends=ends, full_output=True)
+        out[a:a + step] = f
+        if conv.capped.any():
+            capped += int(conv.capped.sum())
+            change.append(float(np.nanmax(conv.change[conv.capped])))
+    if capped:
+        cap = max(sp.GALERKIN_MAX_TERMS, 2 * max(modes, 5) + 10)
+        warnings.warn(sp.GalerkinCapWarning(
+            f"moving beam ({ends.value} ends): {capped} of {Pf.size} points did not converge to "
+            f"rtol {sp.BEAM_RTOL:g} within {cap} Galerkin terms (estimated relative error up to "
+            f"{max(change):.1e}); pass full_output=True to see which"), stacklevel=2)
+    return out.reshape(*shape, modes)
+
+
 def _loop_mechanics(drive: Drive, loop: Loop, g: geo.LoopGeometry, kin: Kinematics,
                     torques: dict[str, NDArray[np.float64]], w_src: NDArray[np.float64], opts: Options,
-                    findings: list[Finding]) -> LoopMechanics:
+                    findings: list[Finding], fed: dict[str, _FedPower] | None = None) -> LoopMechanics:
     c, r, _ = loop_arrays(drive, loop)
     n = len(loop.pulleys)
     b = loop.belt
@@ -613,13 +651,13 @@ def _loop_mechanics(drive: Drive, loop: Loop, g: geo.LoopGeometry, kin: Kinemati
     max_hub, max_hub_at = _peak(np.hypot(hub[..., 0], hub[..., 1]), w_src)
     static_hub = ten.hub_loads(static_P[None, :], g, b.strands)[0]
     # the field pluck check: the same span model at rest (string, or beam with EI)
-    freq = sp.span_frequencies(static_P, static_P, mass, g.span_length_m, 0.0, 1, bending_nm2=b.bending_stiffness_nm2,
-                               ends=opts.span_ends)[:, 0] if m else np.full(n, np.nan)
+    freq = _span_frequencies(static_P, static_P, mass, g.span_length_m, np.zeros(1), 1,
+                             bending_nm2=b.bending_stiffness_nm2, ends=opts.span_ends)[:, 0] if m else np.full(n, np.nan)
     freq = np.where(static_P > 0, freq, np.nan)
     nearest, unstretched, adjust = _stock(drive, loop, g, install, findings)
     dynamics = None
     if m and rule is not None:
-        dynamics = _dynamics(drive, loop, g, kin, rule, w_src, speed, omega, P, T, static_P, opts)
+        dynamics = _dynamics(drive, loop, g, kin, rule, w_src, speed, omega, P, T, static_P, opts, fed)
     return LoopMechanics(
         tensioning=st.rule.kind, source_speed_rad_s=w_src, speed_m_s=speed,
         omega_rad_s=omega, torque_nm=Q, power_w=Q * np.abs(omega), quasi_static_n=P, tension_n=T,
@@ -643,25 +681,126 @@ def _excitations(drive: Drive, loop: Loop, omega: NDArray[np.float64], speed: ND
     return out
 
 
+@dataclass(frozen=True, slots=True)
+class _FedPower:
+    """The power a loop's balancing driver takes in, as a function of the source speed ``s``:
+    ``a + b wf + c x**2 wf`` with ``wf = max(s, torque floor)`` and ``x = s / nominal``.
+
+    Every load law is one of ``power / w``, ``torque`` and ``torque (w / w_nominal)**2``
+    (:func:`physics.kinematics.loop_torques`), and a shaft passes on ``power / w`` of what
+    its downstream loops take, so these three terms are closed under the solve from the far
+    loops back: each loop's coefficients follow from its own loads and the coefficients of
+    the loops it feeds, once per analysis, and a loop is then evaluated at any speed alone.
+    """
+
+    a: float
+    b: float
+    c: float
+
+    def at(self, wf: float, x2: float) -> float:
+        """The power (W) at floored source speed ``wf`` and ``x2 = (s / nominal)**2``."""
+        return self.a + self.b * wf + self.c * x2 * wf
+
+
+def _own_terms(p: Pulley, per_source: float, nominal: float) -> tuple[float, float, float]:
+    """A pulley's own torque as ``a / wf + b + c x**2`` (source speeds), mirroring
+    :func:`physics.kinematics._load_torque` with the pulley's speed ``per_source * s``."""
+    if p.role is Role.DRIVER:
+        return (p.power_w / per_source, 0.0, 0.0) if p.power_w is not None else (0.0, p.torque_nm or 0.0, 0.0)
+    a = b = c = 0.0
+    w_nominal = per_source * nominal
+    if p.law is not None:
+        power = p.power_w if p.power_w is not None else p.torque_nm * w_nominal
+        torque = p.torque_nm if p.torque_nm is not None else (p.power_w / w_nominal if w_nominal > 0 else 0.0)
+        if p.law is LoadLaw.CONSTANT_POWER:
+            a = -power / per_source
+        elif p.law is LoadLaw.QUADRATIC and w_nominal > 0:
+            c = -torque
+        else:
+            b = -torque
+    if p.drag_torque_nm is not None:
+        b -= p.drag_torque_nm
+    return a, b, c
+
+
+def _fed_powers(drive: Drive, kin: Kinematics) -> dict[str, _FedPower]:
+    """Every reached loop's :class:`_FedPower`, solved once from the far loops back."""
+    nominal = kin.source_speed_rad_s or 0.0
+    out: dict[str, _FedPower] = {}
+    for lid in reversed(kin.order):
+        lk = kin.loops[lid]
+        pulleys = lk.loop.pulleys
+        per_source = np.abs(lk.omega_per_source)
+        r = [drive.pulleys[p].radius_m for p in pulleys]
+        sa = sb = sc = 0.0
+        for i, pid in enumerate(pulleys):
+            if i == lk.driver:
+                continue
+            a, b, c = _own_terms(drive.pulleys[pid], float(per_source[i]), nominal)
+            for down in lk.downstream[i]:
+                f = out[down]
+                a, b, c = a - f.a / per_source[i], b - f.b / per_source[i], c - f.c / per_source[i]
+            sa, sb, sc = sa + a / r[i], sb + b / r[i], sc + c / r[i]
+        k = -r[lk.driver] * float(per_source[lk.driver])
+        out[lid] = _FedPower(k * sa, k * sb, k * sc)
+    return out
+
+
+def _loop_torques_at(drive: Drive, kin: Kinematics, lid: str, fed: dict[str, _FedPower], w: float
+                     ) -> NDArray[np.float64]:
+    """Torques ``(1, n)`` of loop ``lid`` alone at source speed ``w``: its own loads as
+    :func:`physics.kinematics.loop_torques` computes them, what its shafts pass on from
+    ``fed``. Where the floored speed is not positive (a constant power is unbounded there)
+    the whole drive is solved as before."""
+    wf = max(w, kin.torque_floor_rad_s)
+    nominal = kin.source_speed_rad_s or 0.0
+    if not (wf > 0 and math.isfinite(wf)):
+        return loop_torques(drive, kin, np.array([w]))[lid]
+    lk = kin.loops[lid]
+    lp = lk.loop
+    n = len(lp.pulleys)
+    per_source = np.abs(lk.omega_per_source)
+    x2 = (w / nominal) ** 2 if nominal > 0 else 0.0
+    w_src, w_floor = np.array([w]), np.array([wf])
+    Q = np.zeros((1, n))
+    with np.errstate(divide="ignore", invalid="ignore"):
+        for i, pid in enumerate(lp.pulleys):
+            if i == lk.driver:
+                continue
+            w_i = per_source[i] * w_floor
+            q = _load_torque(drive.pulleys[pid], per_source[i] * w_src, w_i, per_source[i] * nominal)
+            for down in lk.downstream[i]:
+                q = q - fed[down].at(wf, x2) / w_i
+            Q[:, i] = np.where(np.isfinite(q), q, 0.0)
+    r = np.asarray([drive.pulleys[p].radius_m for p in lp.pulleys])
+    others = np.delete(np.arange(n), lk.driver)
+    Q[:, lk.driver] = -r[lk.driver] * np.sum(Q[:, others] / r[others], axis=1)
+    return Q
+
+
 def _bands(drive: Drive, loop: Loop, g: geo.LoopGeometry, kin: Kinematics, rule: TensionRule,
            w_src: NDArray[np.float64], freqs: NDArray[np.float64], exc: dict[str, NDArray[np.float64]],
-           opts: Options) -> tuple[Band, ...]:
-    """Resonance bands over the sweep, refined on the continuous model of this one loop."""
+           opts: Options, fed: dict[str, _FedPower] | None = None) -> tuple[Band, ...]:
+    """Resonance bands over the sweep, refined on the continuous model of this one loop:
+    each evaluation solves this loop's torques alone (``fed``: what the loops it drives take,
+    :func:`_fed_powers`), so the refinement costs the same in a drive of any number of loops."""
     lk = kin.loops.get(loop.id)
     if lk is None or kin.source_speed_rad_s is None:
         return ()
+    if fed is None:
+        fed = _fed_powers(drive, kin)
     b = loop.belt
     m = b.mass_per_length_kg_m
     L = g.span_length_m
     r = np.asarray([drive.pulleys[p].radius_m for p in loop.pulleys])
 
     def evaluate(w: float) -> tuple[NDArray[np.float64], dict[str, float]]:
-        Q = loop_torques(drive, kin, np.array([w]))[loop.id]
+        Q = _loop_torques_at(drive, kin, loop.id, fed, w)
         v = np.array([lk.speed_per_source * w])
         Pw = rule.apply(ten.tension_steps(Q, r, b.strands), v)
         Tw = Pw + m * v[:, None] ** 2
-        f = sp.span_frequencies(Pw, Tw, m, L[None, :], v[:, None], opts.modes,
-                                bending_nm2=b.bending_stiffness_nm2, ends=opts.span_ends)[0]
+        f = _span_frequencies(Pw, Tw, m, L[None, :], v[:, None], opts.modes,
+                              bending_nm2=b.bending_stiffness_nm2, ends=opts.span_ends)[0]
         ex = _excitations(drive, loop, lk.omega_per_source[None, :] * w, v, g.length_m)
         return f, {k: float(x[0]) for k, x in ex.items()}
 
@@ -696,17 +835,17 @@ def _sags(loop: Loop, g: geo.LoopGeometry, P0: NDArray[np.float64], static_P: ND
 def _dynamics(drive: Drive, loop: Loop, g: geo.LoopGeometry, kin: Kinematics, rule: TensionRule,
               w_src: NDArray[np.float64], speed: NDArray[np.float64], omega: NDArray[np.float64],
               P: NDArray[np.float64], T: NDArray[np.float64], static_P: NDArray[np.float64],
-              opts: Options) -> SpanDynamics:
+              opts: Options, fed: dict[str, _FedPower] | None = None) -> SpanDynamics:
     b = loop.belt
     m = b.mass_per_length_kg_m
     L = g.span_length_m
     c, down, up = sp.wave_speeds(T, m, speed[:, None])
     with np.errstate(invalid="ignore", divide="ignore"):
         voc = np.abs(speed)[:, None] / c
-    freqs = sp.span_frequencies(P, T, m, L[None, :], speed[:, None], opts.modes, bending_nm2=b.bending_stiffness_nm2,
-                                ends=opts.span_ends)
+    freqs = _span_frequencies(P, T, m, L[None, :], speed[:, None], opts.modes, bending_nm2=b.bending_stiffness_nm2,
+                              ends=opts.span_ends)
     exc = _excitations(drive, loop, omega, speed, g.length_m)
-    bands = _bands(drive, loop, g, kin, rule, w_src, freqs, exc, opts)
+    bands = _bands(drive, loop, g, kin, rule, w_src, freqs, exc, opts, fed)
     sags = _sags(loop, g, P[0], static_P, opts.gravity) if opts.gravity is not None else {}
     return SpanDynamics(c, down, up, voc, freqs, exc, bands, **sags)
 
@@ -1005,6 +1144,7 @@ def analyse(drive: Drive, options: Options = Options()) -> Results:
     findings.extend(_source_findings(drive, kin))
     w_src = _source_speeds(kin, options.range_points)
     torques = loop_torques(drive, kin, w_src) if kin.source is not None and kin.order else {}
+    fed = _fed_powers(drive, kin)
     if kin.source is None and drive.loops:
         findings.append(Finding(Severity.NOTE, "no-speed-source",
                                 "no pulley gives a speed: speeds, torques and running tensions are left "
@@ -1013,7 +1153,7 @@ def analyse(drive: Drive, options: Options = Options()) -> Results:
         g = geoms.get(loop.id)
         mech = None
         if g is not None:
-            mech = _loop_mechanics(drive, loop, g, kin, torques, w_src, options, findings)
+            mech = _loop_mechanics(drive, loop, g, kin, torques, w_src, options, findings, fed)
             _loop_findings(drive, loop, mech, options, kin, findings)
             _dynamics_findings(drive, loop, g, mech, options, findings)
         loops[loop.id] = LoopResult(loop, g, mech)
