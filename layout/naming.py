@@ -22,10 +22,15 @@ from .read import Drawing
 from .recognize import Chain, Recognition, Tolerances, layer_matches
 from .spec import PULLEY_KEYS, PulleySpec, Spec, parse_label_words, pulley_values, valid_id
 
-__all__ = ["Names", "texts_in_circles", "named_circles", "name_pulleys", "SLOT_MAX_DIAMETER_M"]
+__all__ = ["Names", "texts_in_circles", "named_circles", "name_pulleys", "SLOT_MAX_DIAMETER_M", "MAX_LABEL_CHARS",
+           "not_a_label"]
+
 
 #: A slot's circles are under this diameter (design, "Geometry rules").
 SLOT_MAX_DIAMETER_M = 0.020
+#: Longest text read as a pulley label (characters): an id and a few ``key=value`` words are far
+#: shorter; a longer text is a note, not a label, and is never split into words.
+MAX_LABEL_CHARS = 200
 #: A metric thread callout ("M8", "M10x1.25") written in a hole: not a pulley label (common practice).
 _THREAD = re.compile(r"^M\d+(\.\d+)?([xX]\d+(\.\d+)?)?$")
 
@@ -85,19 +90,64 @@ def texts_in_circles(d: Drawing) -> dict[int, list[int]]:
 
 def _label_words(text: str) -> list[str] | None:
     """The words of a pulley label (an id, then ``key=value`` words), or None for prose."""
+    if len(text) > MAX_LABEL_CHARS:
+        return None                    # a note or a damaged text, not a label: never split
     words = text.split()
     if not words or not valid_id(words[0]) or any("=" not in w for w in words[1:]):
         return None                    # prose, a callout, a section mark: not a label
     return words
 
 
+def not_a_label(text: str) -> str | None:
+    """Why a text written like a label (an id then ``key=value`` words) is not one, or None.
+
+    A text counts as written like a label when a word after the first holds ``=``; it is not
+    one when its first word is no ASCII id, or another word after it has no ``=``. Prose,
+    callouts and texts longer than :data:`MAX_LABEL_CHARS` give None (they are not labels at all).
+
+    >>> not_a_label("P1 d=100 driver")
+    "word 'driver' is not key=value"
+    >>> not_a_label("Pulley for the fan") is None
+    True
+    """
+    if len(text) > MAX_LABEL_CHARS:
+        return None
+    words = text.split()
+    if len(words) < 2 or not any("=" in w for w in words[1:]):
+        return None
+    if not valid_id(words[0]):
+        kind = ("is not ASCII" if not words[0].isascii() else
+                "does not start with a letter" if not words[0][0].isalpha() else "is not a valid id")
+        return (f"id {words[0]!r} {kind}; expected a letter then letters, digits, '_', '.' or '-' "
+                f"(e.g. 'P1')")
+    bare = [w for w in words[1:] if "=" not in w]
+    if bare:
+        return f"word {bare[0]!r} is not key=value"
+    return None
+
+
+def _ignored_label(d: Drawing, k: int, cands: list[int], alias: np.ndarray) -> str | None:
+    """The message for text ``k`` in a circle, written like a label but not one, or None."""
+    t = d.texts
+    why = not_a_label(t.text[k])
+    if why is None or not _containing(d, float(t.x[k]), float(t.y[k]), np.asarray(cands)):
+        return None
+    keys = [w.split("=", 1)[0] for w in t.text[k].split()[1:] if "=" in w]
+    return (f"label {t.text[k]!r} (TEXT #{t.handle[k]} on {t.layer[k]} at {_fmt((t.x[k], t.y[k]))}): "
+            f"{why}; the text and its keys ({', '.join(keys)}) are ignored")
+
+
 def _text_labels(d: Drawing, hits: dict[int, list[int]], wrapped: set[int], alias: np.ndarray,
-                 problems: list[str]) -> list[_Label]:
+                 problems: list[str], findings: list[Finding]) -> list[_Label]:
     t = d.texts
     labels: list[_Label] = []
     for k, cands in sorted(hits.items()):
         words = _label_words(t.text[k])
         if words is None:
+            ignored = _ignored_label(d, k, cands, alias)
+            if ignored is not None:
+                findings.append(Finding(Severity.NOTE, "label-ignored", ignored,
+                                        at=(float(t.x[k]), float(t.y[k]))))
             continue
         inside = [int(alias[i]) for i in _containing(d, float(t.x[k]), float(t.y[k]), np.asarray(cands))]
         if not inside:
@@ -175,7 +225,7 @@ def name_pulleys(d: Drawing, spec: Spec, rec: Recognition, hits: dict[int, list[
     """
     wrapped = {w.circle for ch in rec.chains for w in ch.wraps}
     names = Names()
-    labels = (_text_labels(d, hits, wrapped, rec.circle_alias, problems)
+    labels = (_text_labels(d, hits, wrapped, rec.circle_alias, problems, findings)
               + _attrib_labels(d, wrapped, rec.circle_alias, problems))
     spec_ids = set(spec.pulleys) | {p.lower() for r in spec.routes.values() for p in r.pulleys}
     for lab in labels:

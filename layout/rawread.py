@@ -82,6 +82,9 @@ class RawDrawing:
     blocks: list[RawBlock]
     skipped: Counter[str]                      # entity type (or what went wrong) -> count
     stopped: str = ""                          # why the walk ended before the end of the file
+    ended_in: str = ""
+    """The section still open where the tags ran out without ``0 EOF`` (``"SECTION"`` before its
+    name), else ``""``: a file cut off inside its HEADER, TABLES, BLOCKS or ENTITIES."""
 
     def modelspace_counts(self) -> Counter[str]:
         """Model space entities by type."""
@@ -216,6 +219,7 @@ def walk(data: bytes) -> RawDrawing:
     except DXFStructureError as err:
         w.raw.stopped = str(err)
     if not ended and w.section is not None:
+        w.raw.ended_in = w.section or "SECTION"
         w.cut_off()
     else:
         w.finish()

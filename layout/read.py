@@ -12,6 +12,12 @@ path becomes a *segment* ``(p0, p1, centre, radius, sweep)`` (``sweep`` = 0 for 
 piece, signed radians counter-clockwise for an arc).
 
 Entities that cannot take part (dimensions, hatches, splines, 3D solids) are skipped.
+
+Hostile input is bounded: block nesting (:data:`MAX_BLOCK_DEPTH`), MINSERT cells
+(:data:`MAX_MINSERT_CELLS`) and the entities expansion produces (:data:`MAX_EXPANDED_ENTITIES`)
+are checked before the work, a drawing past one refused with one line naming it; coordinates
+beyond :data:`MAX_COORDINATE` are skipped like non-finite ones (``bad-coordinates``); texts over
+:data:`MAX_TEXT_CHARS` are not decoded; a file cut off before any entity is refused as truncated.
 """
 
 from __future__ import annotations
@@ -32,10 +38,12 @@ from numpy.typing import NDArray
 from physics.findings import Finding, Severity
 
 from ._own import is_own_name
-from .errors import NotADrawing
+from .errors import FatalInput, NotADrawing
+from .rawread import MAX_NESTING
 
 __all__ = ["Drawing", "Circles", "Segments", "Texts", "AttribSet", "read_drawing", "read_document",
-           "INSUNITS_NAMES", "UNIFORM_SCALE_TOL", "CIRCLE_RATIO_TOL"]
+           "INSUNITS_NAMES", "UNIFORM_SCALE_TOL", "CIRCLE_RATIO_TOL", "MAX_BLOCK_DEPTH",
+           "MAX_EXPANDED_ENTITIES", "MAX_MINSERT_CELLS", "MAX_COORDINATE", "MAX_TEXT_CHARS"]
 
 log = logging.getLogger(__name__)
 
@@ -45,6 +53,30 @@ UNIFORM_SCALE_TOL = 1e-9
 CIRCLE_RATIO_TOL = 1e-6
 #: A closed polyline of arcs is a circle when its arcs share centre and radius within this (relative).
 POLY_CIRCLE_TOL = 1e-6
+
+# Limits on the work block references can ask for: beyond one, the drawing is refused with one
+# line naming the limit (never expanded in part, which would give findings about a drawing
+# that is not the one drawn). A few bytes of DXF can otherwise ask for any amount of work.
+#: Deepest nesting of block references expanded (model space is level 0; the raw-tag reader's
+#: :data:`layout.rawread.MAX_NESTING`).
+MAX_BLOCK_DEPTH = MAX_NESTING
+#: Most entities produced by expanding block references, over the whole drawing (every
+#: placement of every entity of a block counts, nested ones included).
+MAX_EXPANDED_ENTITIES = 500_000
+#: Most cells (rows x columns) of one MINSERT array.
+MAX_MINSERT_CELLS = 100_000
+
+#: Largest coordinate magnitude read, drawing units: float64 keeps steps under 1e-4 units up to
+#: here (2**-13 at 1e12), finer than every tolerance; a circle, an end point or a text anchor
+#: beyond it is skipped with the ``bad-coordinates`` warning, as one that is not finite is (near
+#: 1e15 two distinct points 0.1 apart compare equal, and entities were said to repeat themselves).
+MAX_COORDINATE = 1e12
+
+#: Longest TEXT/MTEXT content (raw, formatting codes included) decoded to plain text. Texts
+#: matter only as pulley labels (at most :data:`layout.naming.MAX_LABEL_CHARS` characters); a
+#: longer one is kept as its first ``MAX_TEXT_CHARS + 1`` raw characters, undecoded (ezdxf's
+#: MTEXT decoding takes time quadratic in the length: about two minutes for 2 MB).
+MAX_TEXT_CHARS = 1000
 
 #: $INSUNITS codes spanwise understands, by name.
 INSUNITS_NAMES: dict[int, str] = {1: "in", 2: "ft", 4: "mm", 5: "cm", 6: "m", 7: "km",
@@ -267,16 +299,24 @@ def _recover(path: str, data: bytes, complete: bool, why: str) -> _Loaded:
     except Exception as err:    # the recovery reader raises many kinds too
         failure = err
     raw = rawread.walk(data)
+    if not complete and not raw.entities and not _model_space_entities(doc):
+        where = f"inside its {raw.ended_in} section" if raw.ended_in else "between two sections"
+        early = f" (its tags stop early: {raw.stopped.rstrip('.')}; or it is damaged)" if raw.stopped else ""
+        raise NotADrawing(f"{path}: the file is truncated: it ends {where} after {len(data)} bytes, before any "
+                          f"drawing entity{early}; expected the sections through ENTITIES and the end-of-file "
+                          f"marker (0 EOF): save or copy the drawing again")
     lost = rawread.lost_entities(raw, doc) if doc is not None else {}
     severity = Severity.NOTE if complete else Severity.WARNING
     name = Path(path).name
+    if raw.ended_in:
+        why += f", cut off inside its {raw.ended_in} section"
     if doc is not None and not lost:
         fixes = len(getattr(auditor, "fixes", []))
         errors = len(getattr(auditor, "errors", []))
         return _Loaded(doc, True, False, [Finding(
             severity, "recovered", f"{name}: read with the recovery reader: {why}; {fixes} repair(s), "
             f"{errors} unrecoverable problem(s); check the drawing is complete",
-            data={"fixes": fixes, "errors": errors})])
+            data={"fixes": fixes, "errors": errors, "truncated_in": raw.ended_in})])
     if doc is None and not raw.entities:
         raise NotADrawing(f"{path}: not a readable DXF drawing ({type(failure).__name__}: {failure})") from failure
     units = _raw_header(data, False)[1]
@@ -293,7 +333,17 @@ def _recover(path: str, data: bytes, complete: bool, why: str) -> _Loaded:
     return _Loaded(rebuilt, True, True, [Finding(
         Severity.WARNING if raw.stopped else severity, "recovered", " ".join(message.split()),
         data={"reader": "raw-tags", "rebuilt": count, "skipped": dict(sorted(raw.skipped.items())),
-              "lost": lost})])
+              "lost": lost, "truncated_in": raw.ended_in})])
+
+
+def _model_space_entities(doc: Any) -> int:
+    """How many entities the model space of ``doc`` holds (0 without a document)."""
+    if doc is None:
+        return 0
+    try:
+        return len(doc.modelspace())
+    except Exception:   # a damaged document without a usable model space holds none
+        return 0
 
 
 def _counted(counts: dict[str, int]) -> str:
@@ -428,6 +478,13 @@ def _add_polyline(col: _Collector, pts: list[tuple[float, float, float]], closed
         col.seg(p0, p1, cx, cy, r, sw, group, layer, handle, kind)
 
 
+def _not_finite(col: _Collector, layer: str, handle: str, kind: str) -> None:
+    """An entity whose angles or parameters are not finite: a NaN piece, skipped and counted as
+    ``bad-coordinates`` by :func:`_drop_non_finite` with the others."""
+    nan = math.nan
+    col.seg((nan, nan), (nan, nan), nan, nan, nan, nan, -1, layer, handle, kind)
+
+
 def _collect_line(col: _Collector, e: Any, layer: str, handle: str) -> bool:
     s, en = e.dxf.start, e.dxf.end
     if s.x != en.x or s.y != en.y:
@@ -455,6 +512,9 @@ def _collect_arc(col: _Collector, e: Any, layer: str, handle: str) -> bool:
     r = dxf.radius
     a0 = math.radians(dxf.start_angle)
     a1 = math.radians(dxf.end_angle)
+    if not (math.isfinite(a0) and math.isfinite(a1) and math.isfinite(r)):
+        _not_finite(col, layer, handle, "ARC")
+        return True
     sw = (a1 - a0) % (2 * math.pi)
     if r <= 0 or sw == 0.0:
         return False
@@ -502,6 +562,9 @@ def _collect_ellipse(col: _Collector, e: Any, layer: str, handle: str) -> bool:
     if r <= 0 or abs(major.z) > 1e-9 * r:
         return False
     p0, p1 = dxf.start_param, dxf.end_param
+    if not (math.isfinite(p0) and math.isfinite(p1) and math.isfinite(r)):
+        _not_finite(col, layer, handle, "ELLIPSE")
+        return True
     sw = (p1 - p0) % (2 * math.pi)
     if sw < 1e-9 or sw > 2 * math.pi - 1e-9:      # a full ellipse of axis ratio 1
         col.circle(c.x, c.y, r, layer, handle)
@@ -521,13 +584,17 @@ def _collect_text(col: _Collector, e: Any, layer: str, handle: str) -> bool:
     if (dxf.get("halign", 0) or dxf.get("valign", 0)) and dxf.hasattr("align_point"):
         p = dxf.align_point
     sign = _ocs_sign(e) or 1.0
-    col.text(sign * p.x, p.y, e.plain_text(), layer, handle)
+    raw = dxf.get("text", "") or ""
+    col.text(sign * p.x, p.y, e.plain_text() if len(raw) <= MAX_TEXT_CHARS else raw[:MAX_TEXT_CHARS + 1],
+             layer, handle)
     return True
 
 
 def _collect_mtext(col: _Collector, e: Any, layer: str, handle: str) -> bool:
     p = e.dxf.insert
-    col.text(p.x, p.y, e.plain_text(split=False), layer, handle)
+    raw = e.text or ""
+    col.text(p.x, p.y, e.plain_text(split=False) if len(raw) <= MAX_TEXT_CHARS else raw[:MAX_TEXT_CHARS + 1],
+             layer, handle)
     return True
 
 
@@ -735,10 +802,12 @@ _Placement = tuple[NDArray[np.float64], str, str, int]
 class _Flattener:
     """Model space of one document with its block references expanded, each block collected once."""
 
-    def __init__(self, doc: Any) -> None:
+    def __init__(self, doc: Any, name: str = "<document>") -> None:
         self.doc = doc
+        self.name = name                           # the file's name, for the messages
         self.cache: dict[str, _Collector] = {}
         self.insert_order: dict[int, int] = {}     # id of a model space INSERT -> drawing order
+        self.expanded = 0                          # entities produced by expansion so far
 
     def model_space(self) -> tuple[_Collector, list[Any]]:
         """The primitives of model space itself, and its block references in drawing order."""
@@ -764,6 +833,11 @@ class _Flattener:
         if name in stack:
             log.warning("block %r references itself; skipped", name)
             return col
+        if len(stack) >= MAX_BLOCK_DEPTH:
+            raise FatalInput(f"{self.name}: block '{name}' is nested more than {MAX_BLOCK_DEPTH} levels "
+                             f"deep (through '{stack[0]}', '{stack[1] if len(stack) > 1 else name}', ...); "
+                             f"expected at most {MAX_BLOCK_DEPTH} levels of block references "
+                             f"(layout.read.MAX_BLOCK_DEPTH)")
         block = self.doc.blocks.get(name)
         if block is None:
             return col
@@ -786,14 +860,33 @@ class _Flattener:
             layer = ins.dxf.layer
             order = self.insert_order.get(id(ins), 0)
             try:
-                if ins.mcount > 1:
+                cells = ins.mcount
+                if cells > MAX_MINSERT_CELLS:
+                    p = ins.dxf.insert
+                    raise FatalInput(
+                        f"{self.name}: MINSERT #{handle} of block '{name}' on {layer} at ({p.x:.6g}, {p.y:.6g}): "
+                        f"{ins.dxf.row_count} rows x {ins.dxf.column_count} columns = {cells} cells; expected "
+                        f"at most {MAX_MINSERT_CELLS} cells in one array (layout.read.MAX_MINSERT_CELLS)")
+                if cells > 1:
                     for vi in ins.multi_insert():
                         by_block[name].append((_matrix(vi), handle, layer, order))
                 else:
                     by_block[name].append((_matrix(ins), handle, layer, order))
+            except FatalInput:
+                raise
             except Exception as err:   # a broken reference must not end the run
                 log.warning("INSERT #%s of block %r skipped: %s", handle, name, err)
         return by_block
+
+    def count_expansion(self, name: str, k: int, local: _Collector) -> None:
+        """Count the entities ``k`` placements of ``local`` produce; refuse past the limit, before the work."""
+        each = len(local.c_handle) + len(local.s_handle) + len(local.t_handle)
+        self.expanded += k * each
+        if self.expanded > MAX_EXPANDED_ENTITIES:
+            raise FatalInput(f"{self.name}: expanding the block references gives over {MAX_EXPANDED_ENTITIES} "
+                             f"entities ({k} placement(s) of block '{name}' with {each} each, {self.expanded} "
+                             f"so far); expected at most {MAX_EXPANDED_ENTITIES} "
+                             f"(layout.read.MAX_EXPANDED_ENTITIES)")
 
     def expand_inserts(self, target: _Collector, ins_list: list[Any], stack: tuple[str, ...]) -> None:
         """Add the contents of the blocks ``ins_list`` references to ``target``, one call per block."""
@@ -801,6 +894,7 @@ class _Flattener:
             local = self.block(name, stack)
             if local.count == 0 and not local.c_handle and not local.s_handle and not local.t_handle:
                 continue
+            self.count_expansion(name, len(items), local)
             mats = np.stack([m for m, _, _, _ in items])
             _expand(target, local, mats, [h for _, h, _, _ in items], [lay for _, _, lay, _ in items],
                     [name] * len(items), [o for _, _, _, o in items])
@@ -818,8 +912,11 @@ def _attrib_sets(inserts: list[Any]) -> list[AttribSet]:
     return attribs
 
 
-def _flatten(doc: Any) -> tuple[_Collector, list[AttribSet]]:
+def _flatten(doc: Any, name: str = "<document>") -> tuple[_Collector, list[AttribSet]]:
     """Model space of ``doc`` as primitives, block references expanded, and their attributes.
+
+    Raises :class:`~layout.errors.FatalInput` (one line, ``name`` first) when the expansion
+    passes :data:`MAX_BLOCK_DEPTH`, :data:`MAX_MINSERT_CELLS` or :data:`MAX_EXPANDED_ENTITIES`.
 
     Returns
     -------
@@ -827,7 +924,7 @@ def _flatten(doc: Any) -> tuple[_Collector, list[AttribSet]]:
         The collector (with the findings of every block collected) and the attribute sets
         of the top-level block references.
     """
-    flat = _Flattener(doc)
+    flat = _Flattener(doc, name)
     top, inserts = flat.model_space()
     flat.expand_inserts(top, inserts, ())
     attribs = _attrib_sets(inserts)
@@ -847,25 +944,42 @@ def _mask(obj: Any, keep: NDArray[np.bool_]) -> Any:
     return type(obj)(**vals)
 
 
+def _in_range(*values: NDArray[np.float64], limit: float = MAX_COORDINATE) -> NDArray[np.bool_]:
+    """Where every one of ``values`` is a finite number within ``limit`` in magnitude."""
+    keep = np.ones(values[0].shape, bool)
+    for v in values:
+        keep &= np.abs(v) <= limit          # False for NaN and infinity too
+    return keep
+
+
 def _drop_non_finite(c: Circles, s: Segments, t: Texts) -> tuple[Circles, Segments, Texts, tuple[int, str] | None]:
-    """Drop entities whose coordinates are NaN or infinite (ezdxf reads them as given)."""
-    kc = np.isfinite(c.x) & np.isfinite(c.y) & np.isfinite(c.r) & (c.r > 0)
-    ks = (np.isfinite(s.x0) & np.isfinite(s.y0) & np.isfinite(s.x1) & np.isfinite(s.y1)
-          & np.isfinite(s.cx) & np.isfinite(s.cy) & np.isfinite(s.r) & np.isfinite(s.sweep))
-    kt = np.isfinite(t.x) & np.isfinite(t.y)
+    """Drop entities whose coordinates are NaN, infinite or beyond :data:`MAX_COORDINATE`.
+
+    ezdxf reads numbers as given. Circles: centre and radius; pieces: their end points (an
+    arc's centre and radius only finite: a nearly straight arc has its centre far out);
+    texts: the anchor.
+    """
+    kc = _in_range(c.x, c.y, c.r) & (c.r > 0)
+    ks = (_in_range(s.x0, s.y0, s.x1, s.y1) & np.isfinite(s.cx) & np.isfinite(s.cy)
+          & np.isfinite(s.r) & np.isfinite(s.sweep))
+    kt = _in_range(t.x, t.y)
     n = int((~kc).sum() + (~ks).sum() + (~kt).sum())
     if n == 0:
         return c, s, t, None
     if (~kc).any():
         i = int(np.flatnonzero(~kc)[0])
-        first = f"CIRCLE #{c.handle[i]} on {c.layer[i]}"
+        first = f"CIRCLE #{c.handle[i]} on {c.layer[i]} at {_shown(c.x[i], c.y[i])} radius {c.r[i]:.6g}"
     elif (~ks).any():
         i = int(np.flatnonzero(~ks)[0])
-        first = f"{s.kind[i]} #{s.handle[i]} on {s.layer[i]}"
+        first = f"{s.kind[i]} #{s.handle[i]} on {s.layer[i]} from {_shown(s.x0[i], s.y0[i])} to {_shown(s.x1[i], s.y1[i])}"
     else:
         i = int(np.flatnonzero(~kt)[0])
-        first = f"TEXT #{t.handle[i]} on {t.layer[i]}"
+        first = f"TEXT #{t.handle[i]} on {t.layer[i]} at {_shown(t.x[i], t.y[i])}"
     return _mask(c, kc), _mask(s, ks), _mask(t, kt), (n, first)
+
+
+def _shown(x: float, y: float) -> str:
+    return f"({x:.6g}, {y:.6g})"
 
 
 def read_drawing(path: str | Path, *, keep_document: bool = False) -> Drawing:
@@ -902,7 +1016,7 @@ def read_drawing(path: str | Path, *, keep_document: bool = False) -> Drawing:
     gc.disable()
     try:
         loaded = _load(p, data, binary)
-        col, attribs = _flatten(loaded.doc)
+        col, attribs = _flatten(loaded.doc, Path(p).name)
     finally:
         if was_enabled:
             gc.enable()
@@ -918,7 +1032,7 @@ def read_document(doc: Any, *, path: str = "<document>") -> Drawing:
     no file, so no ``sha256``.
     """
     code = int(doc.header.get("$INSUNITS", 0) or 0) if doc.dxfversion > "AC1009" else 0
-    col, attribs = _flatten(doc)
+    col, attribs = _flatten(doc, path)
     return _drawing(col, attribs, [], path=path, sha256="", version=doc.dxfversion,
                     units=INSUNITS_NAMES.get(code), recovered=False, document=doc)
 
@@ -941,9 +1055,10 @@ def _drawing(col: _Collector, attribs: list[AttribSet], findings: list[Finding],
     if bad:
         n, first = bad
         findings.append(Finding(Severity.WARNING, "bad-coordinates",
-                                f"{Path(p).name}: {n} entit{'y' if n == 1 else 'ies'} with coordinates that are not "
-                                f"finite numbers skipped, the first {first}; the file may be damaged",
-                                data={"skipped": n}))
+                                f"{Path(p).name}: {n} entit{'y' if n == 1 else 'ies'} skipped with coordinates that are "
+                                f"not finite numbers or beyond {MAX_COORDINATE:.0e} drawing units "
+                                f"(layout.read.MAX_COORDINATE), the first {first}; the file may be damaged",
+                                data={"skipped": n, "limit": MAX_COORDINATE}))
     return Drawing(path=p, sha256=sha256, version=version, units=units, recovered=recovered, circles=circles,
                    segments=segments, texts=texts, attribs=attribs, findings=findings, entity_count=col.count,
                    own_count=col.own, rebuilt=rebuilt, document=document)

@@ -24,7 +24,7 @@ from physics.findings import Finding, Severity
 from physics.kinematics import travel_plan
 from physics.model import Belt, Drive, Loop, Pulley, Role
 
-from .errors import NoBeltLoop, SpecError
+from .errors import FatalInput, NoBeltLoop, SpecError
 from .loops import LoopContext, LoopRecord, PulleyRecord, ToMetres, apply_travel, build_loops, height_du
 from .naming import Names, name_pulleys, named_circles, texts_in_circles
 from .quantity import length_factor
@@ -93,6 +93,7 @@ def build_model(d: Drawing, spec: Spec) -> Model:
     if problems:
         raise SpecError(problems)
     if not loops and not any(f.severity is Severity.ERROR for f in findings):
+        _refuse_truncated(d)
         raise NoBeltLoop(f"{d.path}: holds no belt loop: no closed path of lines and arcs, "
                          f"polyline or tangent spans wraps two or more circles, and the spec "
                          f"routes none")           # a broken path is a finding, not "no belt"
@@ -101,6 +102,16 @@ def build_model(d: Drawing, spec: Spec) -> Model:
     for lp in loops:
         findings.extend(lp.findings)
     return Model(d, spec, units, factor, origin, tol, records, loops, drive, findings)
+
+
+def _refuse_truncated(d: Drawing) -> None:
+    """A drawing cut off in its entities that shows no belt is truncated, not belt-less: what
+    was lost may have held it (one fatal line)."""
+    for f in d.findings:
+        where = f.data.get("truncated_in") if f.code == "recovered" else None
+        if where:
+            raise FatalInput(f"{d.path}: the file is truncated (it ends inside its {where} section) and "
+                             f"what could be read holds no belt loop; expected a complete DXF drawing")
 
 
 def _units(d: Drawing, spec: Spec, findings: list[Finding]) -> tuple[str, float]:
