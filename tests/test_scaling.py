@@ -83,7 +83,10 @@ def test_loop_of_a_long_chain_as_in_the_chain_it_drives():
         ba, bb = _bands(full, lid), _bands(part, lid)
         assert [x[:4] for x in ba] == [x[:4] for x in bb]
         for x, y in zip(ba, bb):
-            assert x[4:8] == pytest.approx(y[4:8], rel=SPEED_RTOL)
+            for p, q in zip(x[4:8], y[4:8]):              # a band may have no crossing (None)
+                assert (p is None) == (q is None)
+                if p is not None:
+                    assert p == pytest.approx(q, rel=SPEED_RTOL, nan_ok=True)
 
 
 def test_one_loop_torques_equal_the_whole_drive_solve():
