@@ -20,6 +20,11 @@ perturbations and unrelated geometry; random specs; and hostile inputs (degenera
 zero-length lines, NaN/inf written into the file, huge or tiny coordinates, odd labels, empty
 model space, INSERTs of missing or self-referencing blocks, truncated files, random bytes).
 
+A run of 20 000 cases (``--count 20000 --seed 1000 --jobs 2 --cli 50``, 2 cores, 341 s): outcomes
+10 729 ok and 9 271 fatal (each one clear line), no crash, and 50 command-line runs with exit
+codes 0, 1 and 2 and no problem. Its one flagged anomaly was the word "NaN" quoted from a damaged
+file inside a finding's message, not a number; the check now parses the JSON to tell.
+
 ``--only SEED`` regenerates and runs just those seeds in this process and prints tracebacks.
 Exit status: 0 when nothing unexpected was found, 1 otherwise.
 """
@@ -63,6 +68,19 @@ class CaseTimeout(Exception):
 
 # --------------------------------------------------------------------------- TOML writing
 
+
+
+def _non_standard_numbers(text: str) -> list[str]:
+    """NaN or Infinity written as JSON numbers (a word inside a string, quoted from a damaged
+    file in a message, does not count)."""
+    found: list[str] = []
+
+    def note(word: str) -> float:
+        found.append(word)
+        return float("nan")
+
+    json.loads(text, parse_constant=note)
+    return sorted(set(found))
 
 def _tv(v: Any) -> str:
     if isinstance(v, bool):
@@ -1106,7 +1124,7 @@ def run_case(seed: int, folder: str, timeout: float) -> dict[str, Any]:
         signal.setitimer(signal.ITIMER_REAL, 0)
         res["outcome"] = "ok"
         res["codes"] = sorted({f.code for f in checked.findings})
-        bad = re.findall(r"\b(NaN|-?Infinity)\b", text)
+        bad = _non_standard_numbers(text)
         if bad:
             res["anomaly"] = f"report JSON holds {sorted(set(bad))}"
         if (folder_p / f"seed_{seed}.traceback.txt").exists():
