@@ -27,9 +27,9 @@ from . import tension as ten
 from .catalogue import find_section
 from .findings import Finding, Severity
 from . import spans as sp
-from .kinematics import Kinematics, _load_torque, loop_torques, solve_kinematics
+from .kinematics import Kinematics, load_terms, load_torque, loop_torques, solve_kinematics
 from .length import AdjustResult, nearest_stock, solve_adjust
-from .model import Drive, LoadLaw, Loop, Pulley, Role, Side, SpanEnds, Tensioning, choice
+from .model import Drive, LoadLaw, Loop, Role, Side, SpanEnds, Tensioning, choice
 from .resonance import RESONANCE_MARGIN, Band, find_bands
 from .tension import GripState
 
@@ -702,27 +702,6 @@ class _FedPower:
         return self.a + self.b * wf + self.c * x2 * wf
 
 
-def _own_terms(p: Pulley, per_source: float, nominal: float) -> tuple[float, float, float]:
-    """A pulley's own torque as ``a / wf + b + c x**2`` (source speeds), mirroring
-    :func:`physics.kinematics._load_torque` with the pulley's speed ``per_source * s``."""
-    if p.role is Role.DRIVER:
-        return (p.power_w / per_source, 0.0, 0.0) if p.power_w is not None else (0.0, p.torque_nm or 0.0, 0.0)
-    a = b = c = 0.0
-    w_nominal = per_source * nominal
-    if p.law is not None:
-        power = p.power_w if p.power_w is not None else p.torque_nm * w_nominal
-        torque = p.torque_nm if p.torque_nm is not None else (p.power_w / w_nominal if w_nominal > 0 else 0.0)
-        if p.law is LoadLaw.CONSTANT_POWER:
-            a = -power / per_source
-        elif p.law is LoadLaw.QUADRATIC and w_nominal > 0:
-            c = -torque
-        else:
-            b = -torque
-    if p.drag_torque_nm is not None:
-        b -= p.drag_torque_nm
-    return a, b, c
-
-
 def _fed_powers(drive: Drive, kin: Kinematics) -> dict[str, _FedPower]:
     """Every reached loop's :class:`_FedPower`, solved once from the far loops back."""
     nominal = kin.source_speed_rad_s or 0.0
@@ -736,7 +715,7 @@ def _fed_powers(drive: Drive, kin: Kinematics) -> dict[str, _FedPower]:
         for i, pid in enumerate(pulleys):
             if i == lk.driver:
                 continue
-            a, b, c = _own_terms(drive.pulleys[pid], float(per_source[i]), nominal)
+            a, b, c = load_terms(drive.pulleys[pid], float(per_source[i]), nominal)
             for down in lk.downstream[i]:
                 f = out[down]
                 a, b, c = a - f.a / per_source[i], b - f.b / per_source[i], c - f.c / per_source[i]
@@ -768,7 +747,7 @@ def _loop_torques_at(drive: Drive, kin: Kinematics, lid: str, fed: dict[str, _Fe
             if i == lk.driver:
                 continue
             w_i = per_source[i] * w_floor
-            q = _load_torque(drive.pulleys[pid], per_source[i] * w_src, w_i, per_source[i] * nominal)
+            q = load_torque(drive.pulleys[pid], float(per_source[i]), w_src, w_floor, nominal)
             for down in lk.downstream[i]:
                 q = q - fed[down].at(wf, x2) / w_i
             Q[:, i] = np.where(np.isfinite(q), q, 0.0)

@@ -21,7 +21,7 @@ from .findings import Finding, Severity
 from .model import Drive, LoadLaw, Loop, Pulley, Role
 
 __all__ = ["LoopKinematics", "Kinematics", "Travel", "loop_shaft_graph", "travel_plan", "solve_kinematics",
-           "loop_torques"]
+           "loop_torques", "load_terms", "load_torque"]
 
 
 @dataclass(frozen=True, slots=True)
@@ -262,8 +262,8 @@ def loop_torques(drive: Drive, kin: Kinematics, source_speed: NDArray[np.float64
                 if i == lk.driver:
                     continue
                 w_i = per_source[i] * w_floor                      # (K,) floored for power over speed
-                q = _load_torque(drive.pulleys[pid], per_source[i] * w_src, w_i,
-                                 per_source[i] * (kin.source_speed_rad_s or 0.0))
+                q = load_torque(drive.pulleys[pid], float(per_source[i]), w_src, w_floor,
+                                kin.source_speed_rad_s or 0.0)
                 for down in lk.downstream[i]:
                     q = q - driver_power[down] / w_i
                 Q[:, i] = np.where(np.isfinite(q), q, 0.0)
@@ -276,23 +276,36 @@ def loop_torques(drive: Drive, kin: Kinematics, source_speed: NDArray[np.float64
     return torques
 
 
-def _load_torque(p: Pulley, w: NDArray[np.float64], w_floor: NDArray[np.float64], w_nominal: float
-                 ) -> NDArray[np.float64]:
-    """A pulley's own torque at speeds ``w`` (+ driving, - taking power out): a second driver's
-    power or torque as given, or a driven load by its law from its nominal value, plus drag."""
-    q = np.zeros(w.size)
-    law = p.law
+def load_terms(p: Pulley, per_source: float, nominal: float) -> tuple[float, float, float]:
+    """A pulley's own torque (+ driving, - taking power out) as ``a / s_f + b + c (s / nominal)**2``
+    at source speed ``s`` (``s_f`` the floored source speed), for a pulley turning
+    ``per_source`` times as fast as the source: a second driver's power or torque as given, or a
+    driven load by its law from its value at the ``nominal`` source speed, plus bearing drag."""
     if p.role is Role.DRIVER:                   # a second motor: its power or torque as given
-        return q + (p.power_w / w_floor if p.power_w is not None else (p.torque_nm or 0.0))
-    if law is not None:
+        return (p.power_w / per_source, 0.0, 0.0) if p.power_w is not None else (0.0, p.torque_nm or 0.0, 0.0)
+    a = b = c = 0.0
+    w_nominal = per_source * nominal
+    if p.law is not None:
         power = p.power_w if p.power_w is not None else p.torque_nm * w_nominal
         torque = p.torque_nm if p.torque_nm is not None else (p.power_w / w_nominal if w_nominal > 0 else 0.0)
-        if law is LoadLaw.CONSTANT_POWER:
-            q = q - power / w_floor
-        elif law is LoadLaw.QUADRATIC and w_nominal > 0:
-            q = q - torque * (w / w_nominal) ** 2
+        if p.law is LoadLaw.CONSTANT_POWER:
+            a = -power / per_source
+        elif p.law is LoadLaw.QUADRATIC and w_nominal > 0:
+            c = -torque
         else:
-            q = q - torque
+            b = -torque
     if p.drag_torque_nm is not None:
-        q = q - p.drag_torque_nm
+        b -= p.drag_torque_nm
+    return a, b, c
+
+
+def load_torque(p: Pulley, per_source: float, w_src: NDArray[np.float64], w_floor: NDArray[np.float64],
+                nominal: float) -> NDArray[np.float64]:
+    """:func:`load_terms` evaluated at source speeds ``w_src`` (floored: ``w_floor``)."""
+    a, b, c = load_terms(p, per_source, nominal)
+    q = np.full(w_src.shape, b)
+    if a:
+        q = q + a / w_floor
+    if c:
+        q = q + c * (w_src / nominal) ** 2
     return q
