@@ -31,8 +31,6 @@ PLAUSIBLE_SPEED_M_S = 60.0
 UNIT_CANDIDATES = ("mm", "in", "cm", "m", "ft")
 
 
-def _fmt(p: tuple[float, float]) -> str:
-    return f"({p[0]:.6g}, {p[1]:.6g})"
 
 
 def check_twists(model: Model, results: Results) -> list[Finding]:

@@ -21,7 +21,7 @@ from physics.findings import Finding, Severity
 from physics.kinematics import Travel
 from physics.model import Side
 
-from .read import Drawing
+from .read import Drawing, fmt_point as _fmt
 from .recognize import Chain, Tolerances
 from .spec import BELT_KEYS, BeltSpec, RouteSpec, Spec
 
@@ -30,12 +30,8 @@ __all__ = ["PulleyRecord", "LoopRecord", "build_loops", "apply_travel", "height_
 ToMetres = Callable[[Any], tuple[float, float]]
 
 
-def _fmt(p: Any) -> str:
-    return f"({p[0]:.6g}, {p[1]:.6g})"
 
 
-def _pt(circ: Any, i: int) -> tuple[float, float]:
-    return (float(circ.x[i]), float(circ.y[i]))
 
 
 @dataclass(slots=True)
@@ -312,7 +308,7 @@ def _routed_loop(r: RouteSpec, ctx: LoopContext, findings: list[Finding]) -> Loo
         findings.append(Finding(Severity.ERROR, "route-impossible",
                                 f"{spec.path}: route.{r.loop}: no belt path runs round "
                                 f"{', '.join(r.pulleys)} in this order with these faces without "
-                                f"crossing itself", at=_pt(circ, circles[0]), refs=(r.loop, *ids)))
+                                f"crossing itself", at=circ.center(circles[0]), refs=(r.loop, *ids)))
         return None
     sides = [Side.INSIDE if f > 0 else Side.BACK for f in faces]
     return LoopRecord(r.loop, circles, ids, radii_du, turns, crossed, sides, None,

@@ -18,7 +18,7 @@ import numpy as np
 
 from physics.findings import Finding, Severity
 
-from .read import Drawing
+from .read import Drawing, fmt_point as _fmt
 from .recognize import Chain, Recognition, Tolerances, layer_matches
 from .spec import PULLEY_KEYS, PulleySpec, Spec, parse_label_words, pulley_values, valid_id
 
@@ -35,12 +35,8 @@ MAX_LABEL_CHARS = 200
 _THREAD = re.compile(r"^M\d+(\.\d+)?([xX]\d+(\.\d+)?)?$")
 
 
-def _fmt(p: Any) -> str:
-    return f"({p[0]:.6g}, {p[1]:.6g})"
 
 
-def _pt(circ: Any, i: int) -> tuple[float, float]:
-    return (float(circ.x[i]), float(circ.y[i]))
 
 
 @dataclass(slots=True)
@@ -263,7 +259,7 @@ def _apply_label(names: Names, lab: _Label, wrapped: set[int], spec_ids: set[str
         if prev.lower() != low:
             findings.append(Finding(Severity.WARNING, "label-conflict",
                                     f"{lab.source} names a pulley already labelled {prev!r}; ignored",
-                                    at=_pt(circ, lab.circle), refs=(prev,)))
+                                    at=circ.center(lab.circle), refs=(prev,)))
         return
     if low in names.by_id and names.by_id[low] != lab.circle:
         other = names.by_id[low]
@@ -291,7 +287,7 @@ def _apply_spec_at(names: Names, key: str, ps: PulleySpec, d: Drawing, alias: np
     if old is not None and old[0] and old[0].lower() != key:
         findings.append(Finding(Severity.NOTE, "label-overridden",
                                 f"{ps.source} renames the pulley labelled {old[0]!r} to {ps.id!r}",
-                                at=_pt(circ, circle), refs=(ps.id,)))
+                                at=circ.center(circle), refs=(ps.id,)))
         names.by_id.pop(old[0].lower(), None)
     names.names[circle] = (ps.id, "spec", dict(old[2]) if old is not None else {})
     names.by_id[key] = circle
@@ -350,7 +346,7 @@ def _apply_spec_id(names: Names, key: str, ps: PulleySpec, d: Drawing, findings:
         findings.append(Finding(Severity.WARNING, "auto-id-named",
                                 f"{ps.source} names {ps.id!r}, an automatic id given in drawing "
                                 f"order; label the pulley in the drawing so the name cannot move",
-                                at=_pt(d.circles, circle), refs=(ps.id,)))
+                                at=d.circles.center(circle), refs=(ps.id,)))
 
 
 def _possible_slot(ch: Chain, d: Drawing, factor: float, tol: Tolerances, spec: Spec,
@@ -370,9 +366,9 @@ def _possible_slot(ch: Chain, d: Drawing, factor: float, tol: Tolerances, spec: 
     if spec.belt_layers and layer_matches(ch.layer, spec.belt_layers):
         return None
     return Finding(Severity.NOTE, "possible-slot",
-                   f"two {2 * ra:.4g}-unit circles at {_fmt(_pt(circ, a))} and {_fmt(_pt(circ, b))} joined "
+                   f"two {2 * ra:.4g}-unit circles at {_fmt(circ.center(a))} and {_fmt(circ.center(b))} joined "
                    f"by tangent lines look like a slot, not a belt drive; label them or name them in the "
-                   f"spec if they are pulleys", at=_pt(circ, a))
+                   f"spec if they are pulleys", at=circ.center(a))
 def _find_at(d: Drawing, alias: np.ndarray, wrapped: set[int], ps: PulleySpec, factor: float,
              problems: list[str]) -> int | None:
     c = d.circles

@@ -16,6 +16,7 @@ import numpy as np
 from physics.analysis import Results
 from physics.findings import Finding, Severity
 
+from .read import fmt_point as _fmt
 from .loops import LoopRecord
 from .recognize import Fault
 from .route import Model
@@ -23,8 +24,6 @@ from .route import Model
 __all__ = ["check_drawn_path", "span_points_drawing"]
 
 
-def _fmt(p) -> str:
-    return f"({p[0]:.6g}, {p[1]:.6g})"
 
 
 def _cross(a: np.ndarray, b: np.ndarray) -> float:

@@ -41,7 +41,7 @@ from ._own import is_own_name
 from .errors import FatalInput, NotADrawing
 from .rawread import MAX_NESTING
 
-__all__ = ["Drawing", "Circles", "Segments", "Texts", "AttribSet", "read_drawing", "read_document",
+__all__ = ["Drawing", "Circles", "fmt_point", "Segments", "Texts", "AttribSet", "read_drawing", "read_document",
            "INSUNITS_NAMES", "UNIFORM_SCALE_TOL", "CIRCLE_RATIO_TOL", "MAX_BLOCK_DEPTH",
            "MAX_EXPANDED_ENTITIES", "MAX_MINSERT_CELLS", "MAX_COORDINATE", "MAX_TEXT_CHARS"]
 
@@ -109,6 +109,15 @@ class Circles:
 
     def __len__(self) -> int:
         return int(self.x.shape[0])
+
+    def center(self, i: int) -> tuple[float, float]:
+        """Circle ``i``'s centre, drawing units."""
+        return (float(self.x[i]), float(self.y[i]))
+
+
+def fmt_point(p: Any) -> str:
+    """A point in drawing units as messages write it: ``(x, y)`` to six significant digits."""
+    return f"({p[0]:.6g}, {p[1]:.6g})"
 
 
 @dataclass(frozen=True, slots=True)

@@ -44,7 +44,7 @@ from scipy.spatial import cKDTree
 
 from physics.findings import Finding, Severity
 
-from .read import Drawing, Segments
+from .read import Drawing, Segments, fmt_point as _fmt
 
 __all__ = ["Tolerances", "Wrap", "DrawnSpan", "Fault", "Chain", "Recognition", "PathEnds",
            "recognize_paths", "layer_matches", "BELT_LAYER_WORDS"]
@@ -261,8 +261,6 @@ def layer_matches(layer: str, patterns: tuple[str, ...]) -> bool:
     return any(fnmatch.fnmatchcase(low, p.lower()) for p in patterns)
 
 
-def _fmt(p: tuple[float, float] | NDArray[np.float64]) -> str:
-    return f"({p[0]:.6g}, {p[1]:.6g})"
 
 
 # --------------------------------------------------------------------------- the whole

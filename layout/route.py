@@ -55,8 +55,7 @@ class Model:
         return (self.origin[0] + float(p_m[0]) / self.factor, self.origin[1] + float(p_m[1]) / self.factor)
 
     def circle_center(self, i: int) -> tuple[float, float]:
-        c = self.drawing.circles
-        return (float(c.x[i]), float(c.y[i]))
+        return self.drawing.circles.center(i)
 
 
 def build_model(d: Drawing, spec: Spec) -> Model:
