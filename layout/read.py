@@ -2,7 +2,9 @@
 
 The reader refuses what is not a DXF by its first bytes (a DWG, a PDF, random bytes),
 reads the header's version and units from the raw file (ezdxf upgrades old versions
-on load and reports metres for a drawing without header), tries ezdxf's normal reader
+on load and reports metres for a drawing without header). Unless the document is to be
+kept (for writing back), a well-formed text DXF is read from its tags alone
+(:mod:`layout.stream`, ``Drawing.streamed``), with the same result. Otherwise it tries ezdxf's normal reader
 first and its recovery reader second; a text DXF both reject, or whose entities the
 recovery reader loses (measured against a walk of the raw tags), is rebuilt from its raw
 tags by :mod:`layout.rawread` (``Drawing.rebuilt``). It then flattens model space: block
@@ -196,6 +198,8 @@ class Drawing:
     holds spanwise's rebuilt copy of the entities, not the user's own, and must not replace the file."""
     document: Any = field(default=None, repr=False, compare=False)
     """The ezdxf document, when the caller asked to keep it (for writing back)."""
+    streamed: bool = field(default=False, repr=False, compare=False)
+    """Read from the tags alone (:mod:`layout.stream`), without loading the document."""
 
 
 # --------------------------------------------------------------------------- raw file
@@ -428,7 +432,11 @@ class _Collector:
 
 def _ocs_sign(entity: Any) -> float | None:
     """+1 for an entity in the drawing plane, -1 for one seen from below, None if tilted."""
-    ext = entity.dxf.get("extrusion", None)
+    return extrusion_sign(entity.dxf.get("extrusion", None))
+
+
+def extrusion_sign(ext: Any) -> float | None:
+    """:func:`_ocs_sign` of an extrusion vector (None: the default, +z)."""
     if ext is None:
         return 1.0
     ex, ey, ez = ext
@@ -631,6 +639,8 @@ def _collect_entity(col: _Collector, e: Any, inserts: list[Any] | None, layer0: 
     """
     t = e.dxftype()
     dxf = e.dxf
+    if not dxf.is_supported("layer"):
+        return                        # not a graphical entity (an unknown type in the file)
     layer = dxf.layer
     if layer0 is not None and layer == "0":
         layer = layer0
@@ -808,6 +818,21 @@ def _expand(target: _Collector, local: _Collector, mats: NDArray[np.float64], ow
 _Placement = tuple[NDArray[np.float64], str, str, int]
 
 
+@dataclass(frozen=True, slots=True)
+class _Reference:
+    """One block reference: its block, handle, layer, drawing order, MINSERT cells and insert point."""
+
+    name: str
+    handle: str
+    layer: str
+    order: int
+    cells: int
+    rows: int
+    columns: int
+    x: float
+    y: float
+
+
 class _Flattener:
     """Model space of one document with its block references expanded, each block collected once."""
 
@@ -838,54 +863,71 @@ class _Flattener:
         """
         if name in self.cache:
             return self.cache[name]
-        col = _Collector()
         if name in stack:
             log.warning("block %r references itself; skipped", name)
-            return col
+            return _Collector()
         if len(stack) >= MAX_BLOCK_DEPTH:
             raise FatalInput(f"{self.name}: block '{name}' is nested more than {MAX_BLOCK_DEPTH} levels "
                              f"deep (through '{stack[0]}', '{stack[1] if len(stack) > 1 else name}', ...); "
                              f"expected at most {MAX_BLOCK_DEPTH} levels of block references "
                              f"(layout.read.MAX_BLOCK_DEPTH)")
-        block = self.doc.blocks.get(name)
-        if block is None:
-            return col
-        nested: list[Any] = []
-        for be in block:
-            if be.dxftype() in ("ATTDEF",):
-                continue
-            _collect_entity(col, be, nested)
+        contents = self.block_contents(name)
+        if contents is None:
+            return _Collector()
+        col, nested = contents
         for ins in nested:
             self.expand_inserts(col, [ins], stack + (name,))
         self.cache[name] = col
         return col
 
+    def block_contents(self, name: str) -> tuple[_Collector, list[Any]] | None:
+        """Block ``name``'s own primitives and its block references (not expanded); None if undefined."""
+        block = self.doc.blocks.get(name)
+        if block is None:
+            return None
+        col = _Collector()
+        nested: list[Any] = []
+        for be in block:
+            if be.dxftype() in ("ATTDEF",):
+                continue
+            _collect_entity(col, be, nested)
+        return col, nested
+
     def placements(self, ins_list: list[Any]) -> dict[str, list[_Placement]]:
         """The placements of each block referenced in ``ins_list`` (a MINSERT gives one per cell)."""
         by_block: dict[str, list[_Placement]] = defaultdict(list)
         for ins in ins_list:
-            name = ins.dxf.name
-            handle = ins.dxf.handle or ""
-            layer = ins.dxf.layer
-            order = self.insert_order.get(id(ins), 0)
+            ref = self.reference(ins)
             try:
-                cells = ins.mcount
-                if cells > MAX_MINSERT_CELLS:
-                    p = ins.dxf.insert
+                if ref.cells > MAX_MINSERT_CELLS:
                     raise FatalInput(
-                        f"{self.name}: MINSERT #{handle} of block '{name}' on {layer} at ({p.x:.6g}, {p.y:.6g}): "
-                        f"{ins.dxf.row_count} rows x {ins.dxf.column_count} columns = {cells} cells; expected "
-                        f"at most {MAX_MINSERT_CELLS} cells in one array (layout.read.MAX_MINSERT_CELLS)")
-                if cells > 1:
-                    for vi in ins.multi_insert():
-                        by_block[name].append((_matrix(vi), handle, layer, order))
-                else:
-                    by_block[name].append((_matrix(ins), handle, layer, order))
+                        f"{self.name}: MINSERT #{ref.handle} of block '{ref.name}' on {ref.layer} at "
+                        f"({ref.x:.6g}, {ref.y:.6g}): {ref.rows} rows x {ref.columns} columns = {ref.cells} cells; "
+                        f"expected at most {MAX_MINSERT_CELLS} cells in one array (layout.read.MAX_MINSERT_CELLS)")
+                for m in self.matrices(ins, ref.cells):
+                    by_block[ref.name].append((m, ref.handle, ref.layer, ref.order))
             except FatalInput:
                 raise
             except Exception as err:   # a broken reference must not end the run
-                log.warning("INSERT #%s of block %r skipped: %s", handle, name, err)
+                log.warning("INSERT #%s of block %r skipped: %s", ref.handle, ref.name, err)
         return by_block
+
+    def reference(self, ins: Any) -> "_Reference":
+        """What the messages and the placements need of one block reference."""
+        dxf = ins.dxf
+        p = dxf.insert
+        return _Reference(dxf.name, dxf.handle or "", dxf.layer, self.insert_order.get(id(ins), 0),
+                          ins.mcount, dxf.row_count, dxf.column_count, p.x, p.y)
+
+    def matrices(self, ins: Any, cells: int) -> list[NDArray[np.float64]]:
+        """The transforms of ``ins``: one, or one per cell of a MINSERT array."""
+        if cells > 1:
+            return [_matrix(vi) for vi in ins.multi_insert()]
+        return [_matrix(ins)]
+
+    def attrib_sets(self, inserts: list[Any]) -> list[AttribSet]:
+        """The attributes of the top-level block references ``inserts``."""
+        return _attrib_sets(inserts)
 
     def count_expansion(self, name: str, k: int, local: _Collector) -> None:
         """Count the entities ``k`` placements of ``local`` produce; refuse past the limit, before the work."""
@@ -933,10 +975,14 @@ def _flatten(doc: Any, name: str = "<document>") -> tuple[_Collector, list[Attri
         The collector (with the findings of every block collected) and the attribute sets
         of the top-level block references.
     """
-    flat = _Flattener(doc, name)
+    return flatten_with(_Flattener(doc, name))
+
+
+def flatten_with(flat: _Flattener) -> tuple[_Collector, list[AttribSet]]:
+    """Model space as ``flat`` reads it, block references expanded, and their attributes."""
     top, inserts = flat.model_space()
     flat.expand_inserts(top, inserts, ())
-    attribs = _attrib_sets(inserts)
+    attribs = flat.attrib_sets(inserts)
     for col in flat.cache.values():
         top.findings.extend(col.findings)
     return top, attribs
@@ -1024,6 +1070,11 @@ def read_drawing(path: str | Path, *, keep_document: bool = False) -> Drawing:
     was_enabled = gc.isenabled()
     gc.disable()
     try:
+        streamed = None if keep_document or binary or not _has_eof(data, binary) else _streamed(data, version, p)
+        if streamed is not None:
+            return _drawing(*streamed, [], path=p, sha256=hashlib.sha256(data).hexdigest(),
+                            version=version or "AC1009", units=units, recovered=False, document=None,
+                            streamed=True)
         loaded = _load(p, data, binary)
         col, attribs = _flatten(loaded.doc, Path(p).name)
     finally:
@@ -1032,6 +1083,18 @@ def read_drawing(path: str | Path, *, keep_document: bool = False) -> Drawing:
     return _drawing(col, attribs, loaded.findings, path=p, sha256=hashlib.sha256(data).hexdigest(),
                     version=version or loaded.doc.dxfversion, units=units, recovered=loaded.recovered,
                     rebuilt=loaded.rebuilt, document=loaded.doc if keep_document else None)
+
+
+def _streamed(data: bytes, version: str, path: str) -> tuple[_Collector, list[AttribSet]] | None:
+    """The drawing read from its tags alone (:mod:`layout.stream`), or None when the whole
+    document must be loaded to read it as ezdxf does."""
+    from .stream import NotStreamable, stream_drawing
+
+    try:
+        return stream_drawing(data, version, Path(path).name)
+    except NotStreamable as why:
+        log.info("%s: reading the whole document: %s", path, why)
+        return None
 
 
 def read_document(doc: Any, *, path: str = "<document>") -> Drawing:
@@ -1048,7 +1111,7 @@ def read_document(doc: Any, *, path: str = "<document>") -> Drawing:
 
 def _drawing(col: _Collector, attribs: list[AttribSet], findings: list[Finding], *, path: str, sha256: str,
              version: str, units: str | None, recovered: bool, document: Any,
-             rebuilt: bool = False) -> Drawing:
+             rebuilt: bool = False, streamed: bool = False) -> Drawing:
     """The collected primitives as a :class:`Drawing`, entities that are not finite dropped."""
     p = path
     findings.extend(col.findings)
@@ -1070,4 +1133,4 @@ def _drawing(col: _Collector, attribs: list[AttribSet], findings: list[Finding],
                                 data={"skipped": n, "limit": MAX_COORDINATE}))
     return Drawing(path=p, sha256=sha256, version=version, units=units, recovered=recovered, circles=circles,
                    segments=segments, texts=texts, attribs=attribs, findings=findings, entity_count=col.count,
-                   own_count=col.own, rebuilt=rebuilt, document=document)
+                   own_count=col.own, rebuilt=rebuilt, document=document, streamed=streamed)
