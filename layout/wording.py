@@ -126,8 +126,8 @@ def _near_critical(lp: str, sid: str, d: dict[str, Any]) -> str:
 
 def _resonance(lp: str, sid: str, d: dict[str, Any]) -> str:
     lo, hi = d["speed_range_rad_s"]
-    head = (f"loop {lp}: span {sid} mode {d['mode']} meets {d['excitation']} ({d['kind']}) from {rpm(lo):.1f} "
-            f"to {_speed(hi)} of the source, ")
+    where = f"at {_speed(hi)}" if f"{rpm(lo):.1f}" == f"{rpm(hi):.1f}" else f"from {rpm(lo):.1f} to {_speed(hi)}"
+    head = f"loop {lp}: span {sid} mode {d['mode']} meets {d['excitation']} ({d['kind']}) {where} of the source, "
     if d["crosses"]:
         return head + f"crossing at {_speed(d['speed_rad_s'])} ({d['frequency_hz']:.2f} Hz)"
     span = f"{d['frequency_hz']:.2f} Hz" if d["kind"] == "direct" else f"2 x {d['frequency_hz']:.2f} Hz"

@@ -168,3 +168,14 @@ def test_near_critical_fallen_to_under_constant_tension():
     assert res.loops["V"].mechanics.dynamics.frequencies_hz[0, 0, 0] / f_rest == pytest.approx(
         math.sqrt(0.4375), rel=1e-9)
     assert f"{math.sqrt(0.4375):.0%}" in word(f).message
+
+
+def test_a_single_operating_speed_is_worded_as_one_speed():
+    # range 1450 to 1450 rpm: L = C / (2 x 24.17 Hz) puts mode 1 at rest on the order-1
+    # excitation 1450 / 60 = 24.17 Hz; running, v = 0.05 x 1450 x pi / 30 = 7.59 m/s and
+    # f_1 = 24.17 x 200 / sqrt(200 (200 + 0.1 x 7.59^2)) = 24.17 x 200 / 202.86 = 23.83 Hz,
+    # 1.4 % off: inside the 10 % band (hand arithmetic)
+    L = C / (2 * 1450 / 60)
+    res = analyse(_drive(L, (1450.0, 1450.0), orders_a=(1.0,)))
+    msgs = [word(f).message for f in _resonances(res)]
+    assert msgs and all("at 1450.0 rpm of the source" in m and " from " not in m for m in msgs), msgs
