@@ -16,8 +16,8 @@ piece, signed radians counter-clockwise for an arc).
 Entities that cannot take part (dimensions, hatches, splines, 3D solids) are skipped.
 
 Hostile input is bounded: block nesting (:data:`MAX_BLOCK_DEPTH`), MINSERT cells
-(:data:`MAX_MINSERT_CELLS`) and the entities expansion produces (:data:`MAX_EXPANDED_ENTITIES`)
-are checked before the work, a drawing past one refused with one line naming it; coordinates
+(:data:`MAX_MINSERT_CELLS`) and the entities expansion produces (:data:`MAX_EXPANDED_ENTITIES`,
+more in proportion to a larger model space) are checked before the work, a drawing past one refused with one line naming it; coordinates
 beyond :data:`MAX_COORDINATE` are skipped like non-finite ones (``bad-coordinates``); texts over
 :data:`MAX_TEXT_CHARS` are not decoded; a file cut off before any entity is refused as truncated.
 """
@@ -45,7 +45,7 @@ from .rawread import MAX_NESTING
 
 __all__ = ["Drawing", "Circles", "fmt_point", "Segments", "Texts", "AttribSet", "read_drawing", "read_document",
            "INSUNITS_NAMES", "UNIFORM_SCALE_TOL", "CIRCLE_RATIO_TOL", "MAX_BLOCK_DEPTH",
-           "MAX_EXPANDED_ENTITIES", "MAX_MINSERT_CELLS", "MAX_COORDINATE", "MAX_TEXT_CHARS"]
+           "MAX_EXPANDED_ENTITIES", "EXPANSION_PER_ENTITY", "MAX_MINSERT_CELLS", "MAX_COORDINATE", "MAX_TEXT_CHARS"]
 
 log = logging.getLogger(__name__)
 
@@ -63,8 +63,13 @@ POLY_CIRCLE_TOL = 1e-6
 #: :data:`layout.rawread.MAX_NESTING`).
 MAX_BLOCK_DEPTH = MAX_NESTING
 #: Most entities produced by expanding block references, over the whole drawing (every
-#: placement of every entity of a block counts, nested ones included).
+#: placement of every entity of a block counts, nested ones included), or
+#: :data:`EXPANSION_PER_ENTITY` per entity and reference model space holds itself when that
+#: is more: the work stays in proportion to the file, so a large drawing full of small parts
+#: is read while a few kilobytes asking for millions of entities are refused.
 MAX_EXPANDED_ENTITIES = 500_000
+#: Entities block expansion may produce per entity or reference of model space (above the floor).
+EXPANSION_PER_ENTITY = 4
 #: Most cells (rows x columns) of one MINSERT array.
 MAX_MINSERT_CELLS = 100_000
 
@@ -842,6 +847,7 @@ class _Flattener:
         self.cache: dict[str, _Collector] = {}
         self.insert_order: dict[int, int] = {}     # id of a model space INSERT -> drawing order
         self.expanded = 0                          # entities produced by expansion so far
+        self.expansion_limit = MAX_EXPANDED_ENTITIES
 
     def model_space(self) -> tuple[_Collector, list[Any]]:
         """The primitives of model space itself, and its block references in drawing order."""
@@ -933,11 +939,16 @@ class _Flattener:
         """Count the entities ``k`` placements of ``local`` produce; refuse past the limit, before the work."""
         each = len(local.c_handle) + len(local.s_handle) + len(local.t_handle)
         self.expanded += k * each
-        if self.expanded > MAX_EXPANDED_ENTITIES:
-            raise FatalInput(f"{self.name}: expanding the block references gives over {MAX_EXPANDED_ENTITIES} "
+        if self.expanded > self.expansion_limit:
+            raise FatalInput(f"{self.name}: expanding the block references gives over {self.expansion_limit} "
                              f"entities ({k} placement(s) of block '{name}' with {each} each, {self.expanded} "
-                             f"so far); expected at most {MAX_EXPANDED_ENTITIES} "
-                             f"(layout.read.MAX_EXPANDED_ENTITIES)")
+                             f"so far); expected at most {self.expansion_limit} (layout.read.MAX_EXPANDED_ENTITIES, "
+                             f"or layout.read.EXPANSION_PER_ENTITY per entity of model space)")
+
+    def limit_expansion(self, top: _Collector, inserts: list[Any]) -> None:
+        """Set the expansion limit from what model space holds itself (``top`` and its ``inserts``)."""
+        held = len(top.c_handle) + len(top.s_handle) + len(top.t_handle) + len(inserts)
+        self.expansion_limit = max(MAX_EXPANDED_ENTITIES, EXPANSION_PER_ENTITY * held)
 
     def expand_inserts(self, target: _Collector, ins_list: list[Any], stack: tuple[str, ...]) -> None:
         """Add the contents of the blocks ``ins_list`` references to ``target``, one call per block."""
@@ -981,6 +992,7 @@ def _flatten(doc: Any, name: str = "<document>") -> tuple[_Collector, list[Attri
 def flatten_with(flat: _Flattener) -> tuple[_Collector, list[AttribSet]]:
     """Model space as ``flat`` reads it, block references expanded, and their attributes."""
     top, inserts = flat.model_space()
+    flat.limit_expansion(top, inserts)
     flat.expand_inserts(top, inserts, ())
     attribs = flat.attrib_sets(inserts)
     for col in flat.cache.values():

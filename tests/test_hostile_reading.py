@@ -110,6 +110,36 @@ def test_blocks_multiplying_to_ten_million_entities_are_refused(tmp_path):
     _one_line(_check(_drive(tmp_path, "expo.dxf", extra)), 2, "MAX_EXPANDED_ENTITIES")
 
 
+def _parts_sheet(tmp_path: Path, name: str, loose: int, placements: int, per_block: int) -> Path:
+    """The drive, ``loose`` circles drawn in model space and ``placements`` references of one
+    block of ``per_block`` circles."""
+    def extra(doc, msp):
+        blk = doc.blocks.new("BOLTS")
+        for j in range(per_block):
+            blk.add_circle((3.0 * j, 0), 1, dxfattribs={"layer": "PARTS"})
+        for k in range(loose):
+            msp.add_circle((1000 + 5.0 * (k % 100), 1000 + 5.0 * (k // 100)), 2, dxfattribs={"layer": "PARTS"})
+        for k in range(placements):
+            msp.add_blockref("BOLTS", (-3000 - 7.0 * (k % 50), 2000 + 7.0 * (k // 50)))
+
+    return _drive(tmp_path, name, extra)
+
+
+def test_the_expansion_limit_grows_with_what_model_space_holds(tmp_path, monkeypatch):
+    # the floor scaled down to 1000 so the drawings stay small; the rule is the one at 500 000
+    from layout import read
+    from layout.errors import FatalInput
+
+    monkeypatch.setattr(read, "MAX_EXPANDED_ENTITIES", 1000)
+    # 400 loose circles + 300 references + the drive's 3 entities = 703 held; 4 x 703 = 2812 allowed,
+    # and the 300 x 4 = 1200 circles of the expansion are read (over the floor of 1000)
+    drawing = read.read_drawing(_parts_sheet(tmp_path, "sheet.dxf", 400, 300, 4))
+    assert len(drawing.circles) == 2 + 400 + 1200
+    # 10 references of a 200-circle block: 2000 entities from 13 held (4 x 13 = 52), over the floor
+    with pytest.raises(FatalInput, match="over 1000 entities"):
+        read.read_drawing(_parts_sheet(tmp_path, "bomb.dxf", 0, 10, 200))
+
+
 # ----------------------------------------------------------------------------- 2. coordinates
 
 
