@@ -30,7 +30,7 @@ from typing import Any, Callable, Iterable
 
 from physics.findings import Severity
 
-from .errors import FatalInput, NoBeltLoop
+from .errors import FatalInput, NoBeltLoop, listed
 from .output import write_atomic
 
 __all__ = ["Source", "AuditOptions", "find_drawings", "cache_key", "check_source", "check_isolated",
@@ -197,7 +197,7 @@ def check_source(src: Source, opts: AuditOptions) -> dict[str, Any]:
         if isinstance(err, NoBeltLoop) or isinstance(err.__cause__, NoBeltLoop):
             row = _empty_row(src, "no-drive", 0)
         else:
-            row = _empty_row(src, "failed", 2, "; ".join(err.problems))
+            row = _empty_row(src, "failed", 2, "; ".join(listed(err.problems)))
     except MemoryError:
         row = _empty_row(src, "failed", 2, "ran out of its memory limit")
     except RecursionError:

@@ -136,7 +136,9 @@ def _suggest_parser(sub: Any) -> None:
 
 
 def _fatal(lines: list[str]) -> int:
-    for line in lines:
+    from .errors import listed
+
+    for line in listed(lines):
         print(f"spanwise: {line}", file=sys.stderr)
     return EXIT_FATAL
 

@@ -1,12 +1,30 @@
 """Exceptions of the ``layout`` package.
 
 One root, :class:`SpanwiseError`. A :class:`FatalInput` carries every fatal problem
-found (one line each): the command line prints them all and exits with status 2.
+found (one line each): the command line prints them (the first :data:`MAX_LISTED`, then a
+count of the rest) and exits with status 2.
 """
 
 from __future__ import annotations
 
-__all__ = ["SpanwiseError", "FatalInput", "NotADrawing", "NoBeltLoop", "SpecError", "OutputRefused"]
+__all__ = ["SpanwiseError", "FatalInput", "NotADrawing", "NoBeltLoop", "SpecError", "OutputRefused",
+           "MAX_LISTED", "listed"]
+
+#: Most problems listed one per line; a drawing with hundreds (duplicate labels on a dense
+#: sheet) gets these and one line counting the rest, so the first problems stay readable.
+MAX_LISTED = 20
+
+
+def listed(problems: list[str], limit: int = MAX_LISTED) -> list[str]:
+    """The first ``limit`` problems, then one line saying how many more there are.
+
+    >>> listed(["a", "b", "c"], 2)
+    ['a', 'b', '... and 1 more problem like these']
+    """
+    if len(problems) <= limit:
+        return list(problems)
+    rest = len(problems) - limit
+    return problems[:limit] + [f"... and {rest} more problem{'s' if rest > 1 else ''} like these"]
 
 
 class SpanwiseError(Exception):

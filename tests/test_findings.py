@@ -293,3 +293,20 @@ def test_regression_prose_inside_a_pulley_is_not_a_label(tmp):
     msp.add_text("SECTION A-A", dxfattribs={"insert": (0, 0)})
     checked = check_drawing(save(doc, tmp))
     assert "SECTION" not in checked.model.drive.pulleys
+
+
+def test_duplicate_labels_are_each_refused_and_a_flood_is_counted(tmp):
+    # 25 separate drives, the large pulley of each labelled 'A': the first names its circle and
+    # the other 24 are duplicates, each a problem with its place (exit 2). The console shows the
+    # first 20 (layout.errors.MAX_LISTED) and one line counting the other 4: 24 - 20 = 4.
+    doc = new_doc("mm")
+    msp = doc.modelspace()
+    for k in range(25):
+        y = 2000.0 * k
+        add_drive(msp, [(0.0, y), (C, y)], [D / 2, d / 2], [1, 1], "polyline")
+        msp.add_text("A", dxfattribs={"insert": (0, y)})
+    r = run_cli("check", save(doc, tmp), "--read-only")
+    lines = r.stderr.strip().splitlines()
+    assert r.returncode == 2 and "Traceback" not in r.stderr, r.stderr
+    assert len(lines) == 21 and all("id 'A' already names the circle at (0, 0)" in s for s in lines[:20]), lines
+    assert "at (0, 2000)" in lines[0] and lines[20] == "spanwise: ... and 4 more problems like these"
