@@ -819,16 +819,26 @@ def _off_layer_notes(off_layer: list[Chain], scene: _Scene) -> list[Finding]:
 
 
 def _tangent_at(a: NDArray[np.float64], b: NDArray[np.float64], c: int, radius: float, scene: _Scene) -> bool:
-    """Whether the line through ``a`` and ``b`` is tangent to circle ``c`` (pitch ``radius``,
-    or a belt height outside it) within the attach tolerance."""
+    """Whether the line from ``a`` to ``b`` is tangent to circle ``c`` (pitch ``radius``, or a
+    belt height outside it) within the attach tolerance, and ends at its tangent point.
+
+    The tangent point is the foot of the perpendicular from the centre; the end nearer the
+    centre must lie within the attach tolerance of it. A line merely passing near the circle
+    at a steep angle (its end on the circle, 20 degrees off the tangent) is no span.
+    """
     u = b - a
     length = float(np.hypot(u[0], u[1]))
     if length == 0:
         return False
-    q = np.array([scene.cx[c], scene.cy[c]]) - a
+    centre = np.array([scene.cx[c], scene.cy[c]])
+    q = centre - a
     dist = abs(float(u[0] * q[1] - u[1] * q[0])) / length
     lim = scene.tol.attach * float(scene.cr[c])
-    return abs(dist - radius) <= lim or (scene.height > 0 and abs(dist - scene.cr[c] - scene.height) <= lim)
+    if not (abs(dist - radius) <= lim or (scene.height > 0 and abs(dist - scene.cr[c] - scene.height) <= lim)):
+        return False
+    foot = a + u * float(u @ q) / length ** 2
+    end = a if np.hypot(*(a - centre)) <= np.hypot(*(b - centre)) else b
+    return float(np.hypot(*(end - foot))) <= lim
 
 
 def _on_belt_layer(layers: list[str], scene: _Scene) -> bool:
@@ -883,17 +893,19 @@ def _chain_meant(ch: Chain, ends: PathEnds, scene: _Scene) -> bool:
     n = len(ch.wraps)
     drawn = tangent = 0
     for k, span in enumerate(ch.spans):
+        if not span.pieces:
+            continue                  # the wraps' drawn arcs meet: nothing to judge
+        drawn += 1
         lines = [(s, f) for s, f in span.pieces if scene.S.sweep[s] == 0.0]
         if not lines:
-            continue
-        drawn += 1
+            continue                  # only arcs on no circle between two wraps: no belt span
         first, last = lines[0], lines[-1]
         a0, b0 = _piece_points(first, ends)
         a1, b1 = _piece_points(last, ends)
         w0, w1 = ch.wraps[k], ch.wraps[(k + 1) % n]
         tangent += _tangent_at(a0, b0, w0.circle, w0.radius, scene) and _tangent_at(a1, b1, w1.circle, w1.radius, scene)
-    if drawn == 0:
-        return True                   # every span left to a drawn wrap's ends: arcs on circles only
+    if drawn == 0:                    # arcs on circles meeting end to end, or arcs on no circle
+        return set(ch.segments) <= {s for w in ch.wraps for s in w.segments}
     return tangent >= 1 and tangent >= BELT_LIKE_SHARE * drawn
 
 
@@ -915,8 +927,9 @@ def _closed_chain(w: _Walk, ends: PathEnds, arcs: _Arcs, scene: _Scene, d: Drawi
     cr = scene.cr
     offsets = [wr for wr in ch.wraps if wr.radius != cr[wr.circle]]
     exact = [wr for wr in ch.wraps if wr.radius == cr[wr.circle] and not wr.slipped]
-    if len(exact) < 1 or len(ch.wraps) - len(offsets) < 2:
-        return None                                  # an outline, a slot, a symbol: not a belt
+    on_circle = {wr.circle for wr in ch.wraps if wr.radius == cr[wr.circle]}
+    if len(exact) < 1 or len(on_circle) < 2:
+        return None                                  # an outline, a slot, a symbol, one circle: not a belt
     ch.layer = Counter(scene.S.layer[k] for k in ch.segments).most_common(1)[0][0]
     if not _chain_meant(ch, ends, scene):
         strays.add(ends.xy(2 * ch.segments[0]))

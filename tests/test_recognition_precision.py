@@ -261,3 +261,71 @@ def test_an_impossible_route_of_the_speed_source_is_one_error(tmp):
     rep = check_drawing(path)
     errors = [f for f in rep.findings if f.severity.value == "error"]
     assert [f.code for f in errors] == ["route-impossible"], [f.message for f in errors]
+
+
+def test_a_loop_touching_one_circle_only_is_no_belt(tmp):
+    # Two chords of one circle on the belt layer close a walk (chord, round the circle, chord,
+    # round the circle): every wrap on the same circle, so nothing is driven; a belt loop needs
+    # two pulleys at least (common practice). Points at 10, 80, 190 and 260 degrees, r = 50.
+    doc = new_doc("mm")
+    msp = doc.modelspace()
+    msp.add_circle((0, 0), 50)
+
+    def at(deg: float) -> tuple[float, float]:
+        return (50 * math.cos(math.radians(deg)), 50 * math.sin(math.radians(deg)))
+
+    msp.add_line(at(10), at(80), dxfattribs={"layer": "BELT"})
+    msp.add_line(at(190), at(260), dxfattribs={"layer": "BELT"})
+    rec = recognize_paths(read_drawing(save(doc, tmp, "one_circle.dxf")), belt_layers=("BELT",))
+    assert rec.chains == []
+
+
+def _lines_near_two_circles(tmp: Path, off: float) -> Path:
+    """Circles r = 40 at (0, 0) and r = 30 at (150, 0), joined by two lines at ``off`` x r from
+    each centre (1.0: the open belt's tangents), each ending on both circles."""
+    doc = new_doc("mm")
+    msp = doc.modelspace()
+    (ra, rb), B = (40.0, 30.0), np.array([150.0, 0.0])
+    msp.add_circle((0, 0), ra)
+    msp.add_circle(tuple(B), rb)
+    da, db = off * ra, off * rb
+    alpha = math.acos((da - db) / 150.0)          # |150 cos(alpha) - da| = db, the same side
+    for sign in (1, -1):
+        n = np.array([math.cos(alpha), sign * math.sin(alpha)])
+        t = np.array([-n[1], n[0]])                   # along the line, from A towards B
+        t = t if B @ t > 0 else -t
+        foot_a, foot_b = da * n, B + (da - B @ n) * n
+        end_a = foot_a + t * math.sqrt(ra ** 2 - da ** 2)
+        end_b = foot_b - t * math.sqrt(rb ** 2 - db ** 2)
+        msp.add_line(tuple(end_a), tuple(end_b))
+    return save(doc, tmp, f"lines_{off}.dxf")
+
+
+@pytest.mark.parametrize("off, loops", [(1.0, 1), (0.95, 0)])
+def test_lines_ending_on_two_circles_are_a_belt_only_when_they_leave_at_the_tangent(tmp, off, loops):
+    # At off = 0.95 each line passes 0.95 r from the centre and ends on the circle
+    # sqrt(1 - 0.95**2) r = 0.312 r from its tangent point (acos(0.95) = 18.2 deg off the tangent);
+    # the attach tolerance is 0.1 r. Lines crossing a bolt circle like this are clutter, while the
+    # tangents themselves (off = 1.0) are a belt drawn as its spans, the arcs left to the circles.
+    rec = recognize_paths(read_drawing(_lines_near_two_circles(tmp, off)))
+    assert len(rec.chains) == loops
+
+
+def test_arcs_on_no_circle_between_two_circles_are_no_belt(tmp):
+    # Two arcs of radius 400 bridge circles r = 40 at (0, 0) and r = 30 at (150, 0), each ending on
+    # both circles: a closed walk round the two circles, but the belt bends only round pulleys, so
+    # nothing of it is a span or a wrap (the two circles alone are a bolt pair, not a drive).
+    doc = new_doc("mm")
+    msp = doc.modelspace()
+    msp.add_circle((0, 0), 40)
+    msp.add_circle((150, 0), 30)
+    for sign in (1, -1):
+        pa, pb = np.array([0.0, 40.0 * sign]), np.array([150.0, 30.0 * sign])
+        mid, chord = (pa + pb) / 2, pb - pa
+        normal = np.array([-chord[1], chord[0]]) / np.hypot(*chord) * -sign
+        centre = mid + normal * math.sqrt(400.0 ** 2 - (np.hypot(*chord) / 2) ** 2)
+        angles = sorted(math.degrees(math.atan2(*(p - centre)[::-1])) % 360 for p in (pa, pb))
+        start, end = (angles if angles[1] - angles[0] < 180 else angles[::-1])
+        msp.add_arc(tuple(centre), 400.0, start, end)
+    rec = recognize_paths(read_drawing(save(doc, tmp, "arcs.dxf")))
+    assert rec.chains == []
