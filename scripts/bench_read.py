@@ -5,7 +5,9 @@ entities, against `ezdxf.readfile` of the same file. Target: ratio <= 1.3.
 
 The unrelated entities, a stated mix: 40 % LINE, 20 % CIRCLE (bolt holes, bosses), 15 % ARC,
 10 % TEXT, 15 % INSERT of four small blocks (each a circle, two lines and an arc). They are
-scattered over a 20 m x 20 m sheet away from the drive. The ratio compares the whole
+scattered away from the drive over a sheet that grows with their number at a constant
+density (18 m x 18 m for 100 000; a larger drawing is a larger sheet, not a denser one, and
+random clutter ten times denser starts forming chance loops). The ratio compares the whole
 command (Python start-up, imports, reading, recognising, analysing, writing the JSON) with
 ezdxf's reading alone, timed in-process; each is the best of --repeat runs.
 """
@@ -25,6 +27,8 @@ import numpy as np
 
 from layout.draw import add_belt_path
 
+#: Side of the sheet the unrelated entities cover at 100 000 of them, mm.
+SIDE_AT_100K = 18000.0
 MIX = {"LINE": 0.40, "CIRCLE": 0.20, "ARC": 0.15, "TEXT": 0.10, "INSERT": 0.15}
 
 
@@ -40,7 +44,8 @@ def make(path: Path, n: int, seed: int = 1) -> dict[str, int]:
         blk.add_line((0, -10), (0, 10))
         blk.add_arc((0, 0), 12 + b, 0, 90)
     counts = {k: int(round(v * n)) for k, v in MIX.items()}
-    xy = rng.uniform(2000.0, 20000.0, size=(n, 2))
+    side = SIDE_AT_100K * math.sqrt(n / 100_000)          # constant density: 3240 mm2 per entity
+    xy = 2000.0 + rng.uniform(0.0, side, size=(n, 2))
     k = 0
     for _ in range(counts["LINE"]):
         x, y = xy[k]
