@@ -17,9 +17,10 @@ Entities that cannot take part (dimensions, hatches, splines, 3D solids) are ski
 
 Hostile input is bounded: block nesting (:data:`MAX_BLOCK_DEPTH`), MINSERT cells
 (:data:`MAX_MINSERT_CELLS`) and the entities expansion produces (:data:`MAX_EXPANDED_ENTITIES`,
-more in proportion to a larger model space) are checked before the work, a drawing past one refused with one line naming it; coordinates
-beyond :data:`MAX_COORDINATE` are skipped like non-finite ones (``bad-coordinates``); texts over
-:data:`MAX_TEXT_CHARS` are not decoded; a file cut off before any entity is refused as truncated.
+more in proportion to a larger model space) are checked before the work, a drawing past one
+refused with one line naming it; coordinates beyond :data:`MAX_COORDINATE` are skipped like
+non-finite ones (``bad-coordinates``); texts over :data:`MAX_TEXT_CHARS` are not decoded; a
+file cut off before any entity is refused as truncated.
 """
 
 from __future__ import annotations
@@ -396,6 +397,10 @@ class _Collector:
         self.findings: list[Finding] = []
         self.count = 0
         self.own = 0
+
+    def primitives(self) -> int:
+        """How many circles, segments and texts are collected."""
+        return len(self.c_handle) + len(self.s_handle) + len(self.t_handle)
 
     def circle(self, x: float, y: float, r: float, layer: str, handle: str, owner: str = "") -> None:
         self.c[0].append(x)
@@ -937,7 +942,7 @@ class _Flattener:
 
     def count_expansion(self, name: str, k: int, local: _Collector) -> None:
         """Count the entities ``k`` placements of ``local`` produce; refuse past the limit, before the work."""
-        each = len(local.c_handle) + len(local.s_handle) + len(local.t_handle)
+        each = local.primitives()
         self.expanded += k * each
         if self.expanded > self.expansion_limit:
             raise FatalInput(f"{self.name}: expanding the block references gives over {self.expansion_limit} "
@@ -947,14 +952,14 @@ class _Flattener:
 
     def limit_expansion(self, top: _Collector, inserts: list[Any]) -> None:
         """Set the expansion limit from what model space holds itself (``top`` and its ``inserts``)."""
-        held = len(top.c_handle) + len(top.s_handle) + len(top.t_handle) + len(inserts)
+        held = top.primitives() + len(inserts)
         self.expansion_limit = max(MAX_EXPANDED_ENTITIES, EXPANSION_PER_ENTITY * held)
 
     def expand_inserts(self, target: _Collector, ins_list: list[Any], stack: tuple[str, ...]) -> None:
         """Add the contents of the blocks ``ins_list`` references to ``target``, one call per block."""
         for name, items in self.placements(ins_list).items():
             local = self.block(name, stack)
-            if local.count == 0 and not local.c_handle and not local.s_handle and not local.t_handle:
+            if local.count == 0 and not local.primitives():
                 continue
             self.count_expansion(name, len(items), local)
             mats = np.stack([m for m, _, _, _ in items])

@@ -6,8 +6,8 @@ entities, against `ezdxf.readfile` of the same file. Target: ratio <= 1.3.
 The unrelated entities, a stated mix: 40 % LINE, 20 % CIRCLE (bolt holes, bosses), 15 % ARC,
 10 % TEXT, 15 % INSERT of four small blocks (each a circle, two lines and an arc). They are
 scattered away from the drive over a sheet that grows with their number at a constant
-density (18 m x 18 m for 100 000; a larger drawing is a larger sheet, not a denser one, and
-random clutter ten times denser starts forming chance loops). The ratio compares the whole
+density (18 m x 18 m for 100 000: a larger drawing is a larger sheet, not a denser one, so
+the rows measure growth with size alone). The ratio compares the whole
 command (Python start-up, imports, reading, recognising, analysing, writing the JSON) with
 ezdxf's reading alone, timed in-process; each is the best of --repeat runs.
 """
