@@ -138,6 +138,19 @@ def test_sample_drawings_are_streamed_alike(path: Path) -> None:
     assert _assert_same(path).streamed
 
 
+def test_an_annotated_copy_counts_every_annotation_as_the_document_does(tmp_path: Path) -> None:
+    # the copy holds spanwise's layers with types the stream does not read (arrowhead SOLIDs):
+    # each is counted, the count being ezdxf's own tally of model space entities on those layers
+    from layout.cli import main
+
+    out = tmp_path / "annotated.dxf"
+    assert main(["check", str(SAMPLES[0]), "--out", str(out), "-q", "--force"]) in (0, 1)
+    own = [e for e in ezdxf.readfile(out).modelspace() if e.dxf.layer.upper().startswith("SPANWISE-")]
+    assert {e.dxftype() for e in own} >= {"SOLID", "TEXT", "LINE"}
+    d = _assert_same(out)
+    assert d.streamed and d.own_count == len(own)
+
+
 def test_windows_line_ends_and_a_code_page(tmp_path: Path) -> None:
     """CR LF line ends and a cp1252 R2000 text; the same drawing read both ways."""
     path = _drawing(tmp_path, "R2000", _clutter, "crlf.dxf")
