@@ -211,6 +211,10 @@ class Drawing:
 # --------------------------------------------------------------------------- raw file
 
 
+#: Byte-order marks some text editors put before a DXF (which neither CAD programs nor ezdxf read).
+_BYTE_ORDER_MARKS = ((b"\xef\xbb\xbf", "UTF-8"), (b"\xff\xfe", "UTF-16"), (b"\xfe\xff", "UTF-16"))
+
+
 def _check_signature(data: bytes, path: str) -> bool:
     """Raise NotADrawing unless ``data`` looks like a DXF; return True for binary DXF."""
     if not data.strip():
@@ -220,6 +224,11 @@ def _check_signature(data: bytes, path: str) -> bool:
                           f"spanwise reads DXF: save the drawing as DXF and check that")
     if data.startswith(_BINARY_DXF):
         return True
+    for mark, name in _BYTE_ORDER_MARKS:
+        if data.startswith(mark):
+            raise NotADrawing(f"{path}: starts with a {name} byte-order mark ({mark.hex(' ')}), which a DXF "
+                              f"file does not have (a text editor added it?); expected the first tag's code: "
+                              f"save the drawing again from the CAD program, or remove those first bytes")
     head = data[:4096].decode("latin-1")
     lines = [ln.strip() for ln in head.splitlines()]
     lines = [ln for ln in lines if ln]

@@ -44,6 +44,7 @@ from scipy.spatial import cKDTree
 
 from physics.findings import Finding, Severity
 
+from .errors import FatalInput
 from .read import Drawing, Segments, fmt_point as _fmt
 
 __all__ = ["Tolerances", "Wrap", "DrawnSpan", "Fault", "Chain", "Recognition", "PathEnds",
@@ -54,6 +55,12 @@ __all__ = ["Tolerances", "Wrap", "DrawnSpan", "Fault", "Chain", "Recognition", "
 BELT_LAYER_WORDS = ("*belt*", "*rope*", "*cable*")
 #: A chain is belt-like when at least this share of its spans (or pieces) is tangent at both ends.
 BELT_LIKE_SHARE = 0.5
+#: Most pairs of distinct line ends within the join tolerance of each other that are listed,
+#: or :data:`NEAR_END_PAIRS_PER_END` per end when that is more: a drawing whose ends crowd
+#: closer (thousands of ends within a hair of one another) is refused with one line.
+MAX_NEAR_END_PAIRS = 2_000_000
+#: Pairs of near line ends allowed per distinct end point (above the floor).
+NEAR_END_PAIRS_PER_END = 8
 #: Beyond this many ends arriving on one circle, pairing is greedy instead of exhaustive.
 _EXHAUSTIVE_PAIRS = 4
 
@@ -84,6 +91,14 @@ class Tolerances:
     def join_abs(self, r: float | NDArray[np.float64], coord: float | NDArray[np.float64]
                  ) -> float | NDArray[np.float64]:
         return np.maximum(self.join * r, self.coordinate * np.abs(coord))
+
+
+class CrowdedEnds(Exception):
+    """More pairs of line ends lie within the join tolerance than :func:`_near_pairs` lists."""
+
+    def __init__(self, pairs: int, limit: int) -> None:
+        super().__init__(f"{pairs} pairs of line ends")
+        self.pairs, self.limit = pairs, limit
 
 
 @dataclass(slots=True)
@@ -296,7 +311,13 @@ def recognize_paths(d: Drawing, *, tol: Tolerances = Tolerances(),
     scene = _scene(d, keep, tol, belt_layers, belt_height, named)
     ends = _end_points(scene)
     arcs = _arcs_on_circles(scene, ends)
-    _cluster_ends(ends, scene)
+    try:
+        _cluster_ends(ends, scene)
+    except CrowdedEnds as err:
+        raise FatalInput(f"{d.path}: {err.pairs} pairs of line ends lie within the join tolerance of one "
+                         f"another, more than the {err.limit} read (layout.recognize.MAX_NEAR_END_PAIRS); "
+                         f"ends crowded this close are not a routing drawing: clean them up or lower the "
+                         f"spec's [tolerances] join") from err
     comp = _components(ends, len(S))
     relevant = _relevant_components(ends, arcs, comp)
     segs = np.flatnonzero(relevant[comp])
@@ -532,23 +553,127 @@ def _slipped_circle(k: int, cands: list[int], scene: _Scene, ends: PathEnds) -> 
 
 
 def _cluster_ends(ends: PathEnds, scene: _Scene) -> None:
-    """Ends within the join tolerance of each other share a cluster (never both ends of one piece)."""
+    """Ends within the join tolerance of each other share a cluster (never both ends of one piece).
+
+    Each end is searched within its own tolerance (one end far out must not widen the search
+    for all); a pair meets within the larger of its two tolerances. Ends drawn at one point
+    are taken together first, so a thousand lines meeting at a point cost one search, and the
+    pairs of distinct points are counted before they are listed (:data:`MAX_NEAR_END_PAIRS`).
+    """
     P, cr = ends.point, scene.cr
-    m = len(P)
     r_ref = np.where(ends.circle >= 0, cr[np.maximum(ends.circle, 0)], np.median(cr))
     etol = scene.tol.join_abs(r_ref, np.abs(P).max(axis=1))
-    # each end searched within its own tolerance (one end far out must not widen the search
-    # for all); a pair meets within the larger of its two tolerances
-    hits = cKDTree(P).query_ball_point(P, r=etol, return_sorted=False)
-    sizes = np.fromiter((len(h) for h in hits), dtype=np.int64, count=m)
-    pairs = np.column_stack([np.repeat(np.arange(m), sizes),
-                             np.fromiter((j for h in hits for j in h), dtype=np.int64, count=int(sizes.sum()))])
-    pairs = pairs[(pairs[:, 0] < pairs[:, 1]) | (etol[pairs[:, 1]] < np.hypot(*(P[pairs[:, 0]] - P[pairs[:, 1]]).T))]
-    if pairs.size:
-        pairs = pairs[pairs[:, 0] // 2 != pairs[:, 1] // 2]
-    if pairs.size:
-        g = coo_matrix((np.ones(len(pairs)), (pairs[:, 0], pairs[:, 1])), shape=(m, m))
-        _, ends.cluster = connected_components(g, directed=False)
+    ends.cluster = end_clusters(P, etol)
+
+
+def end_clusters(P: NDArray[np.float64], etol: NDArray[np.float64]) -> NDArray[np.int64]:
+    """Cluster of each end ``P[e]`` (of piece ``e // 2``): ends ``e``, ``f`` of other pieces
+    within ``max(etol[e], etol[f])`` of each other share one, transitively."""
+    m = len(P)
+    at = _Coincident.of(P, etol)
+    edges = np.concatenate([at.same_point_edges(), at.cross_edges(*_near_pairs(at.points, at.tol))])
+    if not edges.size:
+        return np.arange(m)
+    g = coo_matrix((np.ones(len(edges)), (edges[:, 0], edges[:, 1])), shape=(m, m))
+    return connected_components(g, directed=False)[1].astype(np.int64)
+
+
+@dataclass(frozen=True, slots=True)
+class _Coincident:
+    """Ends grouped by the point they are drawn at: end ``e`` is in group ``inv[e]``, at
+    ``points[inv[e]]``; ``count`` ends per group, ``top`` the end of the widest tolerance
+    ``tol`` and ``tol2`` the widest of the others' (-1 when alone).
+
+    A group's ends all meet each other, so two groups meet when an end of each, not of one
+    piece, is within the larger of their two tolerances. The two ends of a piece of no
+    length meet only through other ends, so when they are alone at their point each is a
+    group of its own.
+    """
+
+    points: NDArray[np.float64]
+    inv: NDArray[np.int64]
+    count: NDArray[np.int64]
+    top: NDArray[np.int64]
+    tol: NDArray[np.float64]
+    tol2: NDArray[np.float64]
+
+    @classmethod
+    def of(cls, P: NDArray[np.float64], etol: NDArray[np.float64]) -> "_Coincident":
+        order = np.lexsort((-etol, P[:, 1], P[:, 0]))      # by point, the widest tolerance first
+        Q = P[order]
+        new = np.ones(len(Q), dtype=bool)
+        new[1:] = (Q[1:] != Q[:-1]).any(axis=1)
+        pos = np.flatnonzero(new)
+        count = np.diff(np.append(pos, len(Q)))
+        # the second end of a lone piece of no length starts a group of its own
+        lone = (count == 2) & (order[pos] // 2 == order[np.minimum(pos + 1, len(Q) - 1)] // 2)
+        new[pos[lone] + 1] = True
+        starts = np.flatnonzero(new)
+        inv = np.empty(len(P), dtype=np.int64)
+        inv[order] = np.cumsum(new) - 1
+        count = np.diff(np.append(starts, len(Q)))
+        second = np.where(count > 1, etol[order[np.minimum(starts + 1, len(Q) - 1)]], -1.0)
+        return cls(Q[starts], inv, count, order[starts], etol[order[starts]], second)
+
+    def same_point_edges(self) -> NDArray[np.int64]:
+        """Every end joined to the first end of its group."""
+        e = np.arange(len(self.inv))
+        rep = self.top[self.inv]
+        keep = e != rep
+        return np.column_stack([rep[keep], e[keep]])
+
+    def cross_edges(self, pairs: NDArray[np.int64], dist: NDArray[np.float64]) -> NDArray[np.int64]:
+        """The groups of ``pairs``, ``dist`` apart, that meet, joined by their first ends."""
+        u, v = pairs[:, 0], pairs[:, 1]
+        tu, tv = self.top[u], self.top[v]
+        one_u, one_v = self.count[u] == 1, self.count[v] == 1
+        # a lone end whose piece's other end is the widest of the group beside it meets
+        # that group only through the group's other ends
+        reach_u = np.where(one_v & (tu // 2 == tv // 2), self.tol2[u], self.tol[u])
+        reach_v = np.where(one_u & (tu // 2 == tv // 2), self.tol2[v], self.tol[v])
+        meet = (dist <= np.maximum(reach_u, reach_v)) & ~(one_u & one_v & (tu // 2 == tv // 2))
+        return np.column_stack([tu, tv])[meet].astype(np.int64, copy=False).reshape(-1, 2)
+
+
+def _near_pairs(U: NDArray[np.float64], tol: NDArray[np.float64]
+                ) -> tuple[NDArray[np.int64], NDArray[np.float64]]:
+    """Pairs ``(i, j)``, ``i < j``, of distinct points within the larger of their tolerances,
+    and their distances.
+
+    Most points share about one tolerance: their pairs come from one search within twice the
+    median; the few with a wider one are searched each within its own. The pairs are
+    counted before they are listed.
+
+    Raises
+    ------
+    CrowdedEnds
+        When more than :data:`MAX_NEAR_END_PAIRS` (or :data:`NEAR_END_PAIRS_PER_END` per point)
+        pairs are that close.
+    """
+    if len(U) < 2:
+        return np.empty((0, 2), np.int64), np.empty(0)
+    tree = cKDTree(U)
+    r0 = 2.0 * float(np.median(tol))
+    wide = np.flatnonzero(tol > r0)
+    n = (int(tree.count_neighbors(tree, r0)) - len(U)) // 2
+    if wide.size:
+        n += int(tree.query_ball_point(U[wide], r=tol[wide], return_length=True).sum())
+    limit = max(MAX_NEAR_END_PAIRS, NEAR_END_PAIRS_PER_END * len(U))
+    if n > limit:
+        raise CrowdedEnds(n, limit)
+    pairs = [tree.query_pairs(r0, output_type="ndarray").reshape(-1, 2)]
+    if wide.size:
+        hits = tree.query_ball_point(U[wide], r=tol[wide], return_sorted=False)
+        sizes = np.fromiter((len(h) for h in hits), dtype=np.int64, count=wide.size)
+        pairs.append(np.column_stack([np.repeat(wide, sizes),
+                                      np.fromiter(itertools.chain.from_iterable(hits), dtype=np.int64,
+                                                  count=int(sizes.sum()))]))
+    p = np.concatenate(pairs).astype(np.int64, copy=False)
+    p = np.sort(p[p[:, 0] != p[:, 1]], axis=1)
+    p = np.unique(p, axis=0) if wide.size else p
+    dist = np.hypot(*(U[p[:, 0]] - U[p[:, 1]]).T)
+    near = dist <= np.maximum(tol[p[:, 0]], tol[p[:, 1]])
+    return p[near], dist[near]
 
 
 def _components(ends: PathEnds, n: int) -> NDArray[np.int64]:

@@ -95,12 +95,22 @@ def build_model(d: Drawing, spec: Spec) -> Model:
         _refuse_truncated(d)
         raise NoBeltLoop(f"{d.path}: holds no belt loop: no closed path of lines and arcs, "
                          f"polyline or tangent spans wraps two or more circles, and the spec "
-                         f"routes none")           # a broken path is a finding, not "no belt"
+                         f"routes none{_skipped(d)}")      # a broken path is a finding, not "no belt"
     _name_open_paths(findings, id_of_circle)
     drive = _to_drive(d, records, loops, to_m, factor, tol, findings)
     for lp in loops:
         findings.extend(lp.findings)
     return Model(d, spec, units, factor, origin, tol, records, loops, drive, findings)
+
+
+def _skipped(d: Drawing) -> str:
+    """What the reader skipped for bad coordinates, as a clause to a no-belt line ('' when nothing)."""
+    for f in d.findings:
+        if f.code == "bad-coordinates":
+            n = f.data.get("skipped", 0)
+            return (f" ({n} entit{'y was' if n == 1 else 'ies were'} skipped with coordinates that are not "
+                    f"finite or beyond {f.data.get('limit', 0):.0e} drawing units: bad-coordinates)")
+    return ""
 
 
 def _refuse_truncated(d: Drawing) -> None:

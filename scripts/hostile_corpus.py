@@ -9,7 +9,8 @@ exit status of 0, 1 or 2; where the case says more (``status``, ``code``, ``mess
 too. The families: truncated drawings (cut inside HEADER, TABLES, ENTITIES), random bytes,
 other formats by their signature (DWG, PDF, PNG, ZIP), binary DXF, R12 with and without a
 HEADER, R2018, empty drawings, zero, negative, huge and tiny radii and coordinates, circles
-repeated and nearly concentric by the thousand, a self-touching path, a path of many tiny
+repeated and nearly concentric by the thousand, ten thousand lines meeting at one point
+(and crowded within a hair of it), a self-touching path, a path of many tiny
 segments, nested and self-referencing blocks, MINSERT arrays, megabyte texts, byte-order
 marks and code pages, and seeded random byte mutations of valid drawings. ``--large`` adds
 a million entities and 100 000-segment paths (for a manual run; not in the suite).
@@ -82,8 +83,10 @@ def _formats(folder: Path, cases: list[Case], rng: random.Random) -> None:
              "random.dxf": bytes(rng.randrange(256) for _ in range(5000)),
              "text-noise.dxf": "\n".join(rng.choice(["0", "SECTION", "2", "ENTITIES", "LINE", "10", "x"])
                                          for _ in range(3000)).encode()}
+    says = {"dwg.dxf": "this is a DWG file", "empty-file.dxf": "the file is empty"}
     for name, data in blobs.items():
-        _save(folder, name, data, cases, kind="not-a-drawing", status="failed")
+        _save(folder, name, data, cases, kind="not-a-drawing", status="failed",
+              **({"message": says[name]} if name in says else {}))
 
 
 def _versions(folder: Path, cases: list[Case]) -> None:
@@ -94,14 +97,15 @@ def _versions(folder: Path, cases: list[Case]) -> None:
     r12 = _text(_drive_doc("R12"))
     start, end = r12.find(b"HEADER"), r12.find(b"ENDSEC")
     no_header = r12[: r12.rfind(b"0\nSECTION", 0, start)] + r12[end + len(b"ENDSEC\n"):]
-    _save(folder, "r12-no-header.dxf", no_header, cases, kind="r12-no-header")
+    _save(folder, "r12-no-header.dxf", no_header, cases, kind="r12-no-header", status="clean", code="units-assumed")
     _save(folder, "r2018.dxf", _text(_drive_doc("R2018")), cases, kind="r2018", status="clean")
-    _save(folder, "bom.dxf", b"\xef\xbb\xbf" + _text(_drive_doc()), cases, kind="bom")
+    _save(folder, "bom.dxf", b"\xef\xbb\xbf" + _text(_drive_doc()), cases, kind="bom", status="failed",
+          message="UTF-8 byte-order mark")
     doc = _drive_doc("R2000")
     doc.header["$DWGCODEPAGE"] = "ANSI_1251"
     doc.modelspace().add_text("Шкив", dxfattribs={"insert": (0, 0)})
     _save(folder, "codepage-1251.dxf", _text(doc).replace("Шкив".encode(), "Шкив".encode("cp1251")), cases,
-          kind="codepage")
+          kind="codepage", status="clean")
 
 
 def _doc_case(folder: Path, cases: list[Case], name: str, build: Callable[[Any], None], **expect: Any) -> None:
@@ -116,10 +120,12 @@ def _geometry(folder: Path, cases: list[Case], rng: random.Random) -> None:
     _doc_case(folder, cases, "empty.dxf", lambda d: None, kind="empty", status="no-drive")
     for name, r in (("zero-radius", 0.0), ("negative-radius", -5.0), ("huge-radius", 1e150), ("tiny-radius", 1e-300)):
         _doc_case(folder, cases, f"{name}.dxf", lambda d, r=r: [msp(d).add_circle((0, 0), r),
-                                                                 msp(d).add_circle((10, 0), r)], kind="radius")
+                                                                 msp(d).add_circle((10, 0), r)], kind="radius",
+                  status="no-drive")
     for name, x in (("far-1e15", 1e15), ("far-1e160", 1e160), ("far-negative", -1e100)):
         _doc_case(folder, cases, f"{name}.dxf", lambda d, x=x: [msp(d).add_circle((x, x), 5.0),
-                                                                 msp(d).add_line((x, x), (x + 1, x))], kind="coords")
+                                                                 msp(d).add_line((x, x), (x + 1, x))], kind="coords",
+                  status="no-drive")
     _doc_case(folder, cases, "concentric-3000.dxf",
               lambda d: [msp(d).add_circle((0, 0), 1 + 1e-4 * k) for k in range(3000)], kind="concentric",
               status="no-drive")
@@ -127,15 +133,31 @@ def _geometry(folder: Path, cases: list[Case], rng: random.Random) -> None:
               lambda d: [msp(d).add_circle((0, 0), 10.0) for _ in range(3000)], kind="repeated", status="no-drive")
     _doc_case(folder, cases, "figure-eight.dxf", lambda d: [
         msp(d).add_circle((0, 0), 50), msp(d).add_circle((300, 0), 50),
-        msp(d).add_lwpolyline([(0, 50), (300, -50), (300, 50), (0, -50)], close=True)], kind="self-touching")
+        msp(d).add_lwpolyline([(0, 50), (300, -50), (300, 50), (0, -50)], close=True)], kind="self-touching",
+              status="no-drive")
+    _doc_case(folder, cases, "star-10000.dxf", lambda d: _star(msp(d), 10_000, 0.0, rng), kind="star",
+              status="no-drive")
+    _doc_case(folder, cases, "crowded-ends.dxf", lambda d: _star(msp(d), 10_000, 1e-3, rng), kind="crowded",
+              status="failed", message="MAX_NEAR_END_PAIRS")
     n = 20_000
     _doc_case(folder, cases, "tiny-segments.dxf", lambda d: [
         msp(d).add_circle((0, 0), 100), msp(d).add_circle((600, 0), 60),
         msp(d).add_lwpolyline([(300 + 250 * math.cos(2 * math.pi * k / n), 120 * math.sin(2 * math.pi * k / n))
-                               for k in range(n)], close=True)], kind="tiny-segments")
+                               for k in range(n)], close=True)], kind="tiny-segments",
+              status="no-drive")
     _doc_case(folder, cases, "megabyte-text.dxf", lambda d: [
         msp(d).add_circle((0, 0), 10), msp(d).add_text("x" * (1 << 20), dxfattribs={"insert": (5000, 5000)})],
         kind="megabyte-text", status="no-drive")
+
+
+def _star(msp: Any, n: int, jitter: float, rng: random.Random) -> None:
+    """Two circles and ``n`` lines from one point (each moved up to ``jitter`` off it)."""
+    msp.add_circle((0, 0), 50)
+    msp.add_circle((300, 0), 50)
+    for k in range(n):
+        a = 2 * math.pi * k / n
+        hub = (1000 + rng.uniform(-jitter, jitter), 1000 + rng.uniform(-jitter, jitter))
+        msp.add_line(hub, (1000 + 100 * math.cos(a), 1000 + 100 * math.sin(a)))
 
 
 def _blocks(folder: Path, cases: list[Case]) -> None:
@@ -149,8 +171,9 @@ def _blocks(folder: Path, cases: list[Case]) -> None:
             prev = f"N{k}"
         d.modelspace().add_blockref(prev, (0, 0))
 
-    _doc_case(folder, cases, "nested-40.dxf", lambda d: nested(d, 40), kind="nested")
-    _doc_case(folder, cases, "nested-300.dxf", lambda d: nested(d, 300), kind="nested")
+    for depth in (40, 300):
+        _doc_case(folder, cases, f"nested-{depth}.dxf", lambda d, depth=depth: nested(d, depth), kind="nested",
+                  status="failed", message="nested more than 32 levels deep")
 
     def cycle(d: Any) -> None:
         a, b = d.blocks.new("A"), d.blocks.new("B")
@@ -159,7 +182,7 @@ def _blocks(folder: Path, cases: list[Case]) -> None:
         b.add_blockref("A", (1, 0))
         d.modelspace().add_blockref("A", (0, 0))
 
-    _doc_case(folder, cases, "self-referencing.dxf", cycle, kind="cycle")
+    _doc_case(folder, cases, "self-referencing.dxf", cycle, kind="cycle", status="no-drive")
 
     def minsert(d: Any, rows: int, cols: int) -> None:
         b = d.blocks.new("HOLE")
@@ -167,8 +190,9 @@ def _blocks(folder: Path, cases: list[Case]) -> None:
         ref = d.modelspace().add_blockref("HOLE", (0, 0))
         ref.grid(size=(rows, cols), spacing=(10, 10))
 
-    _doc_case(folder, cases, "minsert-100x100.dxf", lambda d: minsert(d, 100, 100), kind="minsert")
-    _doc_case(folder, cases, "minsert-1000x1000.dxf", lambda d: minsert(d, 1000, 1000), kind="minsert")
+    _doc_case(folder, cases, "minsert-100x100.dxf", lambda d: minsert(d, 100, 100), kind="minsert", status="no-drive")
+    _doc_case(folder, cases, "minsert-1000x1000.dxf", lambda d: minsert(d, 1000, 1000), kind="minsert",
+              status="failed", message="expected at most 100000 cells")
 
 
 def _mutations(folder: Path, cases: list[Case], rng: random.Random, count: int) -> None:
@@ -227,6 +251,10 @@ def problems(cases: list[Case], rows: list[dict[str, Any]]) -> list[str]:
             out.append(f"{c['path']} ({c['kind']}): {r['status']} {msg[:200]}")
         elif "status" in c and r["status"] != c["status"]:
             out.append(f"{c['path']} ({c['kind']}): {r['status']}, expected {c['status']} {msg[:200]}")
+        elif "code" in c and c["code"] not in r["codes"]:
+            out.append(f"{c['path']} ({c['kind']}): no {c['code']} finding (gave {r['codes']})")
+        elif "message" in c and c["message"] not in msg:
+            out.append(f"{c['path']} ({c['kind']}): the message does not say {c['message']!r}: {msg[:200]}")
         elif c["kind"] == "truncated" and r["status"] != "failed" and "recovered" not in r["codes"]:
             out.append(f"{c['path']} (truncated): {r['status']} without saying it was truncated")
     return out

@@ -4,6 +4,9 @@ Cases found by attacking the reader; each is kept here with what it must give.""
 
 from __future__ import annotations
 
+import json
+import math
+import random
 import subprocess
 import sys
 from pathlib import Path
@@ -64,6 +67,45 @@ def test_short_lines_with_one_end_far_out_cluster_each_within_its_own_tolerance(
 
     r = _check(_r2010(tmp_path, "far.dxf", build))
     assert r.returncode == 2 and "holds no belt loop" in r.stderr and len(r.stderr.strip().splitlines()) == 1
+
+
+def _star(msp, n: int, jitter: float) -> None:
+    """``n`` lines from one point (each start moved up to ``jitter`` off it), beside nothing."""
+    rng = random.Random(5)
+    for k in range(n):
+        a = 2 * math.pi * k / n
+        hub = (1000 + rng.uniform(-jitter, jitter), 1000 + rng.uniform(-jitter, jitter))
+        msp.add_line(hub, (1000 + 100 * math.cos(a), 1000 + 100 * math.sin(a)))
+
+
+def test_ten_thousand_lines_meeting_at_one_point_cost_one_search_and_the_drive_is_found(tmp_path):
+    # the ends drawn at one point are taken together: searching each end's neighbours listed
+    # 10**8 pairs (38 s and 9.8 GB); the two-pulley drive beside the star is still one loop
+    from layout.draw import add_belt_path
+
+    def build(msp):
+        msp.add_circle((0, 0), 50)
+        msp.add_circle((300, 0), 50)
+        add_belt_path(msp, [(0, 0), (300, 0)], [50, 50], [1, 1], form="lines")
+        _star(msp, 10_000, 0.0)
+
+    r = _check(_r2010(tmp_path, "star.dxf", build), "--json", "-")
+    assert r.returncode in (0, 1), r.stderr
+    loops = json.loads(r.stdout)["loops"]
+    assert len(loops) == 1 and len(loops[0]["pulleys"]) == 2
+
+
+def test_line_ends_crowded_within_a_hair_are_refused_naming_the_limit(tmp_path):
+    # 10 000 distinct ends within 1e-3 of one point: 5 * 10**7 pairs within the join
+    # tolerance (0.05 for the r = 50 circles), counted before any is listed
+    def build(msp):
+        msp.add_circle((0, 0), 50)
+        msp.add_circle((300, 0), 50)
+        _star(msp, 10_000, 1e-3)
+
+    r = _check(_r2010(tmp_path, "crowded.dxf", build))
+    assert r.returncode == 2 and len(r.stderr.strip().splitlines()) == 1
+    assert "MAX_NEAR_END_PAIRS" in r.stderr and "pairs of line ends" in r.stderr and "join" in r.stderr
 
 
 def test_a_pipe_or_a_device_as_the_drawing_or_the_spec_is_one_line(tmp_path):
