@@ -247,7 +247,7 @@ def _suggest(args: argparse.Namespace) -> int:
     from .errors import FatalInput
     from .idler import (console_lines, find_span, length_option, place, placement_dict, region_polygons,
                         suggestion_dict, suggestions_document)
-    from .output import document_bytes, write_files
+    from .output import DocumentFile, write_files
     from .pipeline import check_drawing
     from .report import dumps
     from .runner import Outputs, output_path, output_problems, spec_in_use
@@ -282,12 +282,13 @@ def _suggest(args: argparse.Namespace) -> int:
     found = list(placement.suggestions)
     rows = [suggestion_dict(checked, s, k + 1) for k, s in enumerate(found)]
     lines = console_lines(str(src), checked, placement, found, rows, quiet=args.quiet)
-    # every output made in memory first, then written together: a failure leaves none behind
-    files: list[tuple[Path, bytes | str, int | None]] = []
+    # every output staged in its temporary file first, then all moved into place: a failure
+    # leaves none behind
+    files: list[tuple[Path, bytes | str | DocumentFile, int | None]] = []
     if out_json is not None:
         files.append((out_json, dumps(placement_dict(str(src), placement, rows)), None))
     if out is not None and found:
-        files.append((out, document_bytes(suggestions_document(checked, found)), None))
+        files.append((out, DocumentFile(suggestions_document(checked, found)), None))
     try:
         write_files(files)
     except OSError as err:

@@ -23,7 +23,7 @@ import threading
 from pathlib import Path
 from typing import Any, Iterator
 
-__all__ = ["write_atomic", "write_files", "NotRegularFile", "document_bytes", "current_umask", "backup", "DIGEST_PLACEHOLDER", "seal", "is_sealed",
+__all__ = ["write_atomic", "write_files", "DocumentFile", "seal_file", "NotRegularFile", "document_bytes", "current_umask", "backup", "DIGEST_PLACEHOLDER", "seal", "is_sealed",
            "same_file", "save_document"]
 
 #: Stands in the written bytes where their digest goes; the digest is of the bytes with it.
@@ -99,13 +99,32 @@ def _discard(tmp: str) -> None:
         pass
 
 
-def _fill(fd: int, tmp: str, raw: bytes, mode: int | None) -> None:
-    with os.fdopen(fd, "wb") as fh:
-        fh.write(raw)
+class DocumentFile:
+    """An ezdxf document to be written by :func:`write_files` as :func:`document_bytes` makes
+    it: streamed into its temporary file (never held whole in memory) and sealed there."""
+
+    def __init__(self, doc: Any) -> None:
+        self.doc = doc
+
+    def write_into(self, fd: int, tmp: str) -> None:
+        doc = self.doc
+        encoding = "utf-8" if doc.dxfversion >= "AC1021" else doc.output_encoding
+        errors = "dxfreplace" if _has_dxfreplace() else "replace"
+        with os.fdopen(fd, "w", encoding=encoding, errors=errors, newline="\n") as fh:
+            doc.write(fh)
+        seal_file(tmp)
+
+
+def _fill(fd: int, tmp: str, data: bytes | str | DocumentFile, mode: int | None) -> None:
+    if isinstance(data, DocumentFile):
+        data.write_into(fd, tmp)
+    else:
+        with os.fdopen(fd, "wb") as fh:
+            fh.write(data.encode("utf-8") if isinstance(data, str) else data)
     os.chmod(tmp, mode if mode is not None else 0o666 & ~current_umask())
 
 
-def write_atomic(path: str | Path, data: bytes | str, *, mode: int | None = None) -> None:
+def write_atomic(path: str | Path, data: bytes | str | DocumentFile, *, mode: int | None = None) -> None:
     """Write ``data`` to ``path`` atomically.
 
     The file gets ``mode`` when given, else the permissions a new file gets under the
@@ -117,7 +136,7 @@ def write_atomic(path: str | Path, data: bytes | str, *, mode: int | None = None
     write_files([(path, data, mode)])
 
 
-def write_files(items: list[tuple[str | Path, bytes | str, int | None]]) -> None:
+def write_files(items: list[tuple[str | Path, bytes | str | DocumentFile, int | None]]) -> None:
     """Write several files ``(path, data, mode)`` as :func:`write_atomic` does, all or none
     as far as the file system allows: every temporary file is written first, and only when
     all are complete are they moved into place, one ``os.replace`` each."""
@@ -126,9 +145,8 @@ def write_files(items: list[tuple[str | Path, bytes | str, int | None]]) -> None
         for path, data, mode in items:
             target = Path(path)
             _check_regular(target)
-            raw = data.encode("utf-8") if isinstance(data, str) else data
             fd = _temp_beside(target, staged)
-            _fill(fd, staged[-1][0], raw, mode)
+            _fill(fd, staged[-1][0], data, mode)
         for _, target in staged:
             _check_regular(target)
         with _signals_held():           # every file moved into place, or (interrupted before) none
@@ -162,6 +180,22 @@ def seal(raw: bytes) -> bytes:
         return raw
     digest = hashlib.sha256(raw).hexdigest().encode("ascii")
     return raw.replace(placeholder, placeholder[:-64] + digest, 1)
+
+
+def seal_file(path: str | Path) -> None:
+    """Seal the file at ``path`` in place as :func:`seal` seals bytes (its size unchanged)."""
+    import mmap
+
+    placeholder = DIGEST_PLACEHOLDER.encode("ascii")
+    with open(path, "r+b") as fh:
+        if os.fstat(fh.fileno()).st_size < len(placeholder):
+            return
+        with mmap.mmap(fh.fileno(), 0) as mm:
+            at = mm.find(placeholder)
+            if at < 0:
+                return
+            digest = hashlib.sha256(mm).hexdigest().encode("ascii")
+            mm[at + len(placeholder) - 64:at + len(placeholder)] = digest
 
 
 def is_sealed(path: str | Path) -> bool:
@@ -209,7 +243,7 @@ def document_bytes(doc: Any) -> bytes:
 def save_document(doc: Any, path: str | Path, *, mode: int | None = None) -> None:
     """Save an ezdxf document to ``path`` atomically, sealed with its digest when it holds
     the placeholder (see :func:`seal`)."""
-    write_atomic(path, document_bytes(doc), mode=mode)
+    write_atomic(path, DocumentFile(doc), mode=mode)
 
 
 def _has_dxfreplace() -> bool:

@@ -61,6 +61,15 @@ BELT_LIKE_SHARE = 0.5
 MAX_NEAR_END_PAIRS = 2_000_000
 #: Pairs of near line ends allowed per distinct end point (above the floor).
 NEAR_END_PAIRS_PER_END = 8
+#: Most candidate circles tried for the line ends over the whole drawing (an end inside the
+#: square reach of a circle is a candidate), or :data:`RIM_CANDIDATES_PER_END` per end when
+#: that is more: a thousand large circles over a hundred thousand lines are refused with one
+#: line instead of taking minutes.
+MAX_RIM_CANDIDATES = 30_000_000
+#: Candidate circles allowed per line end (above the floor).
+RIM_CANDIDATES_PER_END = 20
+#: Line ends queried for their circle at a time (bounds the candidates held in memory).
+_ATTACH_BLOCK = 1024
 #: Beyond this many ends arriving on one circle, pairing is greedy instead of exhaustive.
 _EXHAUSTIVE_PAIRS = 4
 
@@ -93,12 +102,33 @@ class Tolerances:
         return np.maximum(self.join * r, self.coordinate * np.abs(coord))
 
 
-class CrowdedEnds(Exception):
-    """More pairs of line ends lie within the join tolerance than :func:`_near_pairs` lists."""
+class Crowded(Exception):
+    """A drawing asks recognition for more candidates than it looks at; :meth:`line` says so."""
+
+    SAYS = "{path}: {pairs} candidates, more than the {limit} looked at"
 
     def __init__(self, pairs: int, limit: int) -> None:
-        super().__init__(f"{pairs} pairs of line ends")
+        super().__init__(f"{pairs} candidates, limit {limit}")
         self.pairs, self.limit = pairs, limit
+
+    def line(self, path: str) -> str:
+        return self.SAYS.format(path=path, pairs=self.pairs, limit=self.limit)
+
+
+class CrowdedEnds(Crowded):
+    """More pairs of line ends lie within the join tolerance than :func:`_near_pairs` lists."""
+
+    SAYS = ("{path}: {pairs} pairs of line ends lie within the join tolerance of one another, more than "
+            "the {limit} read (layout.recognize.MAX_NEAR_END_PAIRS); ends crowded this close are not a "
+            "routing drawing: clean them up or lower the spec's [tolerances] join")
+
+
+class CrowdedCircles(Crowded):
+    """Line ends fall within the reach of circles more often than :func:`_attach` tries."""
+
+    SAYS = ("{path}: line ends fall within the reach of circles {pairs} times or more, over the {limit} "
+            "tried (layout.recognize.MAX_RIM_CANDIDATES): the drawing holds many large circles over many "
+            "lines; check the drive's part of it on its own")
 
 
 @dataclass(slots=True)
@@ -309,15 +339,7 @@ def recognize_paths(d: Drawing, *, tol: Tolerances = Tolerances(),
     if len(S) == 0 or keep.size == 0:
         return Recognition([], alias, _duplicate_note(d, duplicates, []))
     scene = _scene(d, keep, tol, belt_layers, belt_height, named)
-    ends = _end_points(scene)
-    arcs = _arcs_on_circles(scene, ends)
-    try:
-        _cluster_ends(ends, scene)
-    except CrowdedEnds as err:
-        raise FatalInput(f"{d.path}: {err.pairs} pairs of line ends lie within the join tolerance of one "
-                         f"another, more than the {err.limit} read (layout.recognize.MAX_NEAR_END_PAIRS); "
-                         f"ends crowded this close are not a routing drawing: clean them up or lower the "
-                         f"spec's [tolerances] join") from err
+    ends, arcs = _linked_ends(scene, d.path)
     comp = _components(ends, len(S))
     relevant = _relevant_components(ends, arcs, comp)
     segs = np.flatnonzero(relevant[comp])
@@ -333,6 +355,23 @@ def recognize_paths(d: Drawing, *, tol: Tolerances = Tolerances(),
         _to_drawing_numbering(ch, keep)
     chains.sort(key=lambda ch: (int(S.order[ch.order]) if len(S.order) else 0, ch.order))
     return Recognition(chains, alias, findings)
+
+
+def _linked_ends(scene: _Scene, path: str) -> tuple[PathEnds, _Arcs]:
+    """The pieces' ends on their circles and in their clusters, and the arcs on circles.
+
+    Raises
+    ------
+    FatalInput
+        When the drawing asks for more candidates than recognition looks at (:class:`Crowded`).
+    """
+    try:
+        ends = _end_points(scene)
+        arcs = _arcs_on_circles(scene, ends)
+        _cluster_ends(ends, scene)
+    except Crowded as err:
+        raise FatalInput(err.line(path)) from err
+    return ends, arcs
 
 
 def _scene(d: Drawing, keep: NDArray[np.int64], tol: Tolerances, belt_layers: tuple[str, ...],
@@ -458,17 +497,32 @@ def _attach(P: NDArray[np.float64], scene: _Scene, fracs: tuple[float, ...]) -> 
     radius (the one it misses least), or -1; one spatial query for all fractions.
 
     A back idler may be drawn at its outside diameter: a point may also lie the belt's
-    height outside its circle.
+    height outside its circle. The points are queried in blocks, so the candidates in
+    memory stay few; the candidates over the whole drawing are limited
+    (:data:`MAX_RIM_CANDIDATES`).
     """
-    cx, cy, cr, h = scene.cx, scene.cy, scene.cr, scene.height
+    cx, cy, cr = scene.cx, scene.cy, scene.cr
     outs = [np.full(len(P), -1, dtype=np.int64) for _ in fracs]
     if not len(P):
         return outs
-    reach = cr * (1 + max(fracs)) + h
+    reach = cr * (1 + max(fracs)) + scene.height
     tree = shapely.STRtree(shapely.box(cx - reach, cy - reach, cx + reach, cy + reach))
-    qi0, qc0 = tree.query(shapely.points(P))
-    if not qi0.size:
-        return outs
+    limit = max(MAX_RIM_CANDIDATES, RIM_CANDIDATES_PER_END * len(P))
+    seen = 0
+    for lo in range(0, len(P), _ATTACH_BLOCK):
+        qi, qc = tree.query(shapely.points(P[lo:lo + _ATTACH_BLOCK]))
+        seen += qi.size
+        if seen > limit:
+            raise CrowdedCircles(seen, limit)
+        if qi.size:
+            _attach_block(P, qi + lo, qc, scene, fracs, outs)
+    return outs
+
+
+def _attach_block(P: NDArray[np.float64], qi0: NDArray[np.int64], qc0: NDArray[np.int64], scene: _Scene,
+                  fracs: tuple[float, ...], outs: list[NDArray[np.int64]]) -> None:
+    """Set ``outs`` for the points ``qi0``, each tried on its candidate circle ``qc0``."""
+    cx, cy, cr, h = scene.cx, scene.cy, scene.cr, scene.height
     dist = np.hypot(P[qi0, 0] - cx[qc0], P[qi0, 1] - cy[qc0])
     miss0 = np.minimum(np.abs(dist - cr[qc0]), np.abs(dist - cr[qc0] - h))
     for out, frac in zip(outs, fracs):
@@ -479,7 +533,6 @@ def _attach(P: NDArray[np.float64], scene: _Scene, fracs: tuple[float, ...]) -> 
         first = np.ones(qi.size, dtype=bool)
         first[1:] = qi[1:] != qi[:-1]
         out[qi[first]] = qc[first]
-    return outs
 
 
 def _arcs_on_circles(scene: _Scene, ends: PathEnds) -> _Arcs:

@@ -16,7 +16,7 @@ from pathlib import Path
 from typing import Any
 
 from .errors import FatalInput
-from .output import DIGEST_PLACEHOLDER, backup, document_bytes, is_sealed, same_file, seal, write_files
+from .output import DIGEST_PLACEHOLDER, DocumentFile, backup, is_sealed, same_file, seal, write_files
 
 __all__ = ["Outputs", "output_path", "plan_outputs", "output_problems", "run_check", "spec_in_use"]
 
@@ -189,13 +189,14 @@ def run_check(drawing: Path, outputs: Outputs, *, spec: str | None, grip_margin:
 def write_outputs(report: Any, outputs: Outputs, drawing: Path) -> list[str]:
     """Write every output of ``report``; return one line per file written.
 
-    Every file is made in memory first and then written by :func:`write_files`: all the
-    temporary files, then all moved into place, so a failure or an interruption part way
-    leaves no output half done and none of the old ones replaced.
+    The files are written by :func:`write_files` (reports made in memory, drawings streamed
+    into their temporary files): all the temporary files first, then all moved into place,
+    so a failure or an interruption part way leaves no output half done and none of the old
+    ones replaced.
     """
     from .report import dumps
 
-    files: list[tuple[Path | str, bytes | str, int | None]] = []
+    files: list[tuple[Path | str, bytes | str | DocumentFile, int | None]] = []
     done = []
     if outputs.json is not None and outputs.json != STDOUT:
         files.append((outputs.json, dumps(report.to_dict()), None))
@@ -207,7 +208,7 @@ def write_outputs(report: Any, outputs: Outputs, drawing: Path) -> list[str]:
     if outputs.out is not None or outputs.in_place:
         from .annotate import annotate
 
-        raw = document_bytes(annotate(report.document, report))
+        raw = DocumentFile(annotate(report.document, report))
         if outputs.in_place:
             in_place = raw
         else:
@@ -216,7 +217,7 @@ def write_outputs(report: Any, outputs: Outputs, drawing: Path) -> list[str]:
     if outputs.overlay is not None:
         from .annotate import overlay
 
-        files.append((outputs.overlay, document_bytes(overlay(report)), None))
+        files.append((outputs.overlay, DocumentFile(overlay(report)), None))
         done.append(f"overlay {outputs.overlay}")
     if in_place is not None:
         saved = backup(drawing)

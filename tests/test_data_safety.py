@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import json
 import os
+import re
 import shutil
 import signal
 import subprocess
@@ -274,3 +275,27 @@ sys.exit(code)
                        capture_output=True, text=True, env=_env(), timeout=HANG_GUARD_S)
     assert r.returncode == 0, r.stderr
     assert r.stdout.strip().splitlines()[-1] == "READS 1"
+
+
+def test_a_streamed_drawing_is_byte_for_byte_the_sealed_document_and_is_ours(tmp_path):
+    # the annotated copy is streamed into its temporary file and sealed there; it must be the
+    # very bytes the in-memory path seals (digest of the bytes with the placeholder in place)
+    import ezdxf
+
+    from layout.output import DIGEST_PLACEHOLDER, DocumentFile, document_bytes, is_sealed, write_atomic
+
+    doc = ezdxf.new("R2010")
+    doc.modelspace().add_circle((0, 0), 10)
+    doc.modelspace().add_text("Ω pulley " + DIGEST_PLACEHOLDER)        # not ASCII, and the seal's place
+    out = tmp_path / "copy.dxf"
+    write_atomic(out, DocumentFile(doc))
+
+    def masked(raw: bytes) -> bytes:      # what differs between two writes: a GUID, a time, the seal
+        raw = re.sub(rb"\{[0-9A-F-]{36}\}", b"{GUID}", raw)
+        raw = re.sub(rb"@ \d{4}-\d\d-\d\dT[0-9:.+]+", b"@ TIME", raw)
+        return re.sub(rb"spanwise-digest=[0-9a-f]{64}", b"spanwise-digest=D", raw)
+
+    assert masked(out.read_bytes()) == masked(document_bytes(doc))
+    assert is_sealed(out) and DIGEST_PLACEHOLDER.encode() not in out.read_bytes()
+    out.write_bytes(out.read_bytes().replace(b"pulley", b"pullez"))        # edited by a person
+    assert not is_sealed(out)
