@@ -18,6 +18,7 @@ import numpy as np
 
 from physics.findings import Finding, Severity
 
+from .errors import FatalInput
 from .read import Drawing, fmt_point as _fmt
 from .recognize import Chain, Recognition, Tolerances, layer_matches
 from .spec import PULLEY_KEYS, PulleySpec, Spec, parse_label_words, pulley_values, valid_id
@@ -31,6 +32,13 @@ SLOT_MAX_DIAMETER_M = 0.020
 #: Longest text read as a pulley label (characters): an id and a few ``key=value`` words are far
 #: shorter; a longer text is a note, not a label, and is never split into words.
 MAX_LABEL_CHARS = 200
+#: Most (text, circle) pairs of a label-like text's anchor in a circle's bounding box that are
+#: looked at, or :data:`TEXT_CIRCLE_PAIRS_PER_TEXT` per such text when that is more.
+MAX_TEXT_CIRCLE_PAIRS = 2_000_000
+#: Circles allowed per label-like text (above the floor).
+TEXT_CIRCLE_PAIRS_PER_TEXT = 20
+#: Text anchors queried at a time (bounds the pairs held in memory).
+_TEXT_BLOCK = 1024
 #: A metric thread callout ("M8", "M10x1.25") written in a hole: not a pulley label (common practice).
 _THREAD = re.compile(r"^M\d+(\.\d+)?([xX]\d+(\.\d+)?)?$")
 
@@ -72,16 +80,44 @@ def _containing(d: Drawing, x: float, y: float, candidates: np.ndarray | None = 
 
 
 def texts_in_circles(d: Drawing) -> dict[int, list[int]]:
-    """For each text, the circles whose bounding boxes hold its anchor (one spatial query)."""
+    """For each text that may be a label, the circles whose bounding boxes hold its anchor.
+
+    Only texts written like labels are looked at (an id, then ``key=value`` words: a label,
+    or one :func:`not_a_label` explains). The anchors are queried in blocks and the pairs
+    counted (:data:`MAX_TEXT_CIRCLE_PAIRS`), so a sheet of texts under many large circles is
+    refused with one line instead of listing every pair.
+
+    Raises
+    ------
+    FatalInput
+        When the texts fall in circles more often than the limit.
+    """
     t, c = d.texts, d.circles
     hits: dict[int, list[int]] = {}
-    if len(t) and len(c):
-        from shapely import STRtree, box, points
-        tree = STRtree(box(c.x - c.r, c.y - c.r, c.x + c.r, c.y + c.r))
-        ti, ci = tree.query(points(np.column_stack([t.x, t.y])))
-        for a, b in zip(ti.tolist(), ci.tolist()):
+    keep = np.asarray([k for k, s in enumerate(t.text) if _label_like(s)], dtype=np.int64)
+    if not keep.size or not len(c):
+        return hits
+    from shapely import STRtree, box, points
+
+    tree = STRtree(box(c.x - c.r, c.y - c.r, c.x + c.r, c.y + c.r))
+    limit = max(MAX_TEXT_CIRCLE_PAIRS, TEXT_CIRCLE_PAIRS_PER_TEXT * keep.size)
+    seen = 0
+    for lo in range(0, keep.size, _TEXT_BLOCK):
+        ks = keep[lo:lo + _TEXT_BLOCK]
+        ti, ci = tree.query(points(np.column_stack([t.x[ks], t.y[ks]])))
+        seen += ti.size
+        if seen > limit:
+            raise FatalInput(f"{d.path}: label-like texts fall within circles {seen} times or more, over the "
+                             f"{limit} looked at (layout.naming.MAX_TEXT_CIRCLE_PAIRS): the drawing holds many "
+                             f"large circles over many texts; check the drive's part of it on its own")
+        for a, b in zip(ks[ti].tolist(), ci.tolist()):
             hits.setdefault(a, []).append(b)
     return hits
+
+
+def _label_like(text: str) -> bool:
+    """Whether ``text`` is a label, or written like one (see :func:`not_a_label`)."""
+    return _label_words(text) is not None or not_a_label(text) is not None
 
 
 def _label_words(text: str) -> list[str] | None:

@@ -399,33 +399,56 @@ def _to_drawing_numbering(ch: Chain, keep: NDArray[np.int64]) -> None:
 def _dedup_circles(d: Drawing, tol: Tolerances) -> tuple[NDArray[np.int64], list[tuple[int, int]]]:
     """Each circle's alias (the circle it repeats, or itself) and the (copy, kept) pairs.
 
-    The search is in (x, y, r), each circle within its own tolerance, so that concentric
-    circles of other radii are never candidates; only circles with a neighbour are looked at,
-    each group once from its first circle, so 3 000 copies of one circle cost one search.
+    Exact copies go to their first circle at once (one sort); the other circles are searched
+    in (x, y, r), each within its own tolerance, so that concentric circles of other radii
+    are never candidates; only circles with a neighbour are looked at, each group once from
+    its first circle, so 200 000 copies of one circle, drawn exactly or a hair apart, cost
+    one search.
     """
     c = d.circles
     n = len(c)
     alias = np.arange(n)
-    repeats: list[tuple[int, int]] = []
     if n < 2:
-        return alias, repeats
-    pts = np.column_stack([c.x, c.y])
-    lims = tol.join_abs(c.r, np.abs(pts).max(axis=1))
+        return alias, []
     xyr = np.column_stack([c.x, c.y, c.r])
-    tree = cKDTree(xyr)
-    reach = lims * math.sqrt(2.0)
-    crowded = np.flatnonzero(tree.query_ball_point(xyr, r=reach, return_length=True) > 1)
-    for i in crowded.tolist():
+    firsts = _exact_copies(xyr, alias)
+    if firsts.size > 1:
+        _near_copies(d, xyr, firsts, alias, tol)
+    alias = alias[alias]                  # an exact copy of a near copy repeats what that repeats
+    copies = np.flatnonzero(alias != np.arange(n))
+    return alias, sorted(zip(copies.tolist(), alias[copies].tolist()), key=lambda p: (p[1], p[0]))
+
+
+def _exact_copies(xyr: NDArray[np.float64], alias: NDArray[np.int64]) -> NDArray[np.int64]:
+    """Alias every circle drawn exactly like an earlier one to the first; return the firsts."""
+    order = np.lexsort((xyr[:, 2], xyr[:, 1], xyr[:, 0]))      # stable: a group's first circle first
+    Q = xyr[order]
+    new = np.ones(len(Q), dtype=bool)
+    new[1:] = (Q[1:] != Q[:-1]).any(axis=1)
+    first = order[new]
+    alias[order] = first[np.cumsum(new) - 1]
+    return np.sort(first)
+
+
+def _near_copies(d: Drawing, xyr: NDArray[np.float64], firsts: NDArray[np.int64], alias: NDArray[np.int64],
+                 tol: Tolerances) -> None:
+    """Alias each of ``firsts`` that repeats an earlier one within the join tolerance."""
+    c = d.circles
+    sub = xyr[firsts]
+    reach = tol.join_abs(sub[:, 2], np.abs(sub[:, :2]).max(axis=1)) * math.sqrt(2.0)
+    tree = cKDTree(sub)
+    nearest = tree.query(sub, k=2)[0][:, 1]              # the nearest other circle: no count of a crowd
+    for a in np.flatnonzero(nearest <= reach).tolist():
+        i = int(firsts[a])
         if alias[i] != i:
             continue
-        for j in sorted(tree.query_ball_point(xyr[i], r=reach[i])):
+        for b in sorted(tree.query_ball_point(sub[a], r=reach[a])):
+            j = int(firsts[b])
             if j <= i or alias[j] != j:
                 continue
             lim = float(tol.join_abs(min(c.r[i], c.r[j]), max(abs(c.x[i]), abs(c.y[i]))))
             if math.hypot(c.x[i] - c.x[j], c.y[i] - c.y[j]) <= lim and abs(c.r[i] - c.r[j]) <= lim:
                 alias[j] = i
-                repeats.append((j, i))
-    return alias, sorted(repeats, key=lambda p: (p[1], p[0]))
 
 
 def _duplicate_pieces(ends: PathEnds, S: Segments) -> tuple[NDArray[np.bool_], list[tuple[int, int]]]:

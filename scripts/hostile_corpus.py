@@ -9,11 +9,12 @@ exit status of 0, 1 or 2; where the case says more (``status``, ``code``, ``mess
 too. The families: truncated drawings (cut inside HEADER, TABLES, ENTITIES), random bytes,
 other formats by their signature (DWG, PDF, PNG, ZIP), binary DXF, R12 with and without a
 HEADER, R2018, empty drawings, zero, negative, huge and tiny radii and coordinates, circles
-repeated and nearly concentric by the thousand, ten thousand lines meeting at one point
-(and crowded within a hair of it), a self-touching path, a path of many tiny
-segments, nested and self-referencing blocks, MINSERT arrays, megabyte texts, byte-order
-marks and code pages, and seeded random byte mutations of valid drawings. ``--large`` adds
-a million entities and 100 000-segment paths (for a manual run; not in the suite).
+repeated (exactly and a hair apart) and nearly concentric by the thousand, ten thousand lines
+meeting at one point (and crowded within a hair of it), thousands of large circles over many
+lines or labels, a self-touching path, a path of many tiny segments, nested and
+self-referencing blocks, MINSERT arrays, megabyte texts, byte-order marks and code pages, and
+seeded random byte mutations of valid drawings. ``--large`` adds a million entities and
+100 000-segment paths (for a manual run; not in the suite).
 
 The audit runs each case in its own process with a time and a memory limit
 (:func:`layout.audit.audit`), so a case that would hang or eat the machine shows as
@@ -131,6 +132,9 @@ def _geometry(folder: Path, cases: list[Case], rng: random.Random) -> None:
               status="no-drive")
     _doc_case(folder, cases, "repeated-3000.dxf",
               lambda d: [msp(d).add_circle((0, 0), 10.0) for _ in range(3000)], kind="repeated", status="no-drive")
+    _doc_case(folder, cases, "near-copies-50000.dxf", lambda d: [
+        msp(d).add_circle((rng.uniform(-1e-4, 1e-4), rng.uniform(-1e-4, 1e-4)), 10 + rng.uniform(-1e-4, 1e-4))
+        for _ in range(50_000)], kind="repeated", status="no-drive")
     _doc_case(folder, cases, "figure-eight.dxf", lambda d: [
         msp(d).add_circle((0, 0), 50), msp(d).add_circle((300, 0), 50),
         msp(d).add_lwpolyline([(0, 50), (300, -50), (300, 50), (0, -50)], close=True)], kind="self-touching",
@@ -139,6 +143,10 @@ def _geometry(folder: Path, cases: list[Case], rng: random.Random) -> None:
               status="no-drive")
     _doc_case(folder, cases, "crowded-ends.dxf", lambda d: _star(msp(d), 10_000, 1e-3, rng), kind="crowded",
               status="failed", message="MAX_NEAR_END_PAIRS")
+    _doc_case(folder, cases, "rings-over-lines.dxf", lambda d: _rings_over(msp(d), rng, lines=10_000),
+              kind="rings-over", status="failed", message="MAX_RIM_CANDIDATES")
+    _doc_case(folder, cases, "rings-over-texts.dxf", lambda d: _rings_over(msp(d), rng, texts=1500),
+              kind="rings-over", status="failed", message="MAX_TEXT_CIRCLE_PAIRS")
     n = 20_000
     _doc_case(folder, cases, "tiny-segments.dxf", lambda d: [
         msp(d).add_circle((0, 0), 100), msp(d).add_circle((600, 0), 60),
@@ -158,6 +166,18 @@ def _star(msp: Any, n: int, jitter: float, rng: random.Random) -> None:
         a = 2 * math.pi * k / n
         hub = (1000 + rng.uniform(-jitter, jitter), 1000 + rng.uniform(-jitter, jitter))
         msp.add_line(hub, (1000 + 100 * math.cos(a), 1000 + 100 * math.sin(a)))
+
+
+def _rings_over(msp: Any, rng: random.Random, *, lines: int = 0, texts: int = 0) -> None:
+    """2000 concentric circles 0.2 % apart in radius (none repeats another) over short lines
+    or pulley-like labels, every one inside every circle's bounding box."""
+    for k in range(2000):
+        msp.add_circle((0, 0), 10_000 * 1.002 ** k)
+    for _ in range(lines):
+        x, y = rng.uniform(-5000, 5000), rng.uniform(-5000, 5000)
+        msp.add_line((x, y), (x + 3, y))
+    for k in range(texts):
+        msp.add_text(f"P{k}", dxfattribs={"insert": (rng.uniform(-5000, 5000), rng.uniform(-5000, 5000))})
 
 
 def _blocks(folder: Path, cases: list[Case]) -> None:
