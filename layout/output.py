@@ -23,8 +23,8 @@ import threading
 from pathlib import Path
 from typing import Any, Iterator
 
-__all__ = ["write_atomic", "write_files", "DocumentFile", "seal_file", "NotRegularFile", "document_bytes", "current_umask", "backup", "DIGEST_PLACEHOLDER", "seal", "is_sealed",
-           "same_file", "save_document"]
+__all__ = ["write_atomic", "write_files", "DocumentFile", "seal_file", "NotRegularFile", "document_bytes",
+           "current_umask", "backup", "DIGEST_PLACEHOLDER", "seal", "is_sealed", "same_file", "save_document"]
 
 #: Stands in the written bytes where their digest goes; the digest is of the bytes with it.
 DIGEST_PLACEHOLDER = "spanwise-digest=" + "0" * 64
