@@ -20,7 +20,7 @@ from physics.findings import Finding, Severity
 
 from .errors import FatalInput
 from .read import Drawing, fmt_point as _fmt
-from .recognize import Chain, Recognition, Tolerances, layer_matches
+from .recognize import Chain, Crowded, Recognition, Tolerances, box_candidates, layer_matches
 from .spec import PULLEY_KEYS, PulleySpec, Spec, parse_label_words, pulley_values, valid_id
 
 __all__ = ["Names", "texts_in_circles", "named_circles", "name_pulleys", "SLOT_MAX_DIAMETER_M", "MAX_LABEL_CHARS",
@@ -37,8 +37,6 @@ MAX_LABEL_CHARS = 200
 MAX_TEXT_CIRCLE_PAIRS = 2_000_000
 #: Circles allowed per label-like text (above the floor).
 TEXT_CIRCLE_PAIRS_PER_TEXT = 20
-#: Text anchors queried at a time (bounds the pairs held in memory).
-_TEXT_BLOCK = 1024
 #: A metric thread callout ("M8", "M10x1.25") written in a hole: not a pulley label (common practice).
 _THREAD = re.compile(r"^M\d+(\.\d+)?([xX]\d+(\.\d+)?)?$")
 
@@ -97,22 +95,25 @@ def texts_in_circles(d: Drawing) -> dict[int, list[int]]:
     keep = np.asarray([k for k, s in enumerate(t.text) if _label_like(s)], dtype=np.int64)
     if not keep.size or not len(c):
         return hits
-    from shapely import STRtree, box, points
+    from shapely import STRtree, box
 
     tree = STRtree(box(c.x - c.r, c.y - c.r, c.x + c.r, c.y + c.r))
     limit = max(MAX_TEXT_CIRCLE_PAIRS, TEXT_CIRCLE_PAIRS_PER_TEXT * keep.size)
-    seen = 0
-    for lo in range(0, keep.size, _TEXT_BLOCK):
-        ks = keep[lo:lo + _TEXT_BLOCK]
-        ti, ci = tree.query(points(np.column_stack([t.x[ks], t.y[ks]])))
-        seen += ti.size
-        if seen > limit:
-            raise FatalInput(f"{d.path}: label-like texts fall within circles {seen} times or more, over the "
-                             f"{limit} looked at (layout.naming.MAX_TEXT_CIRCLE_PAIRS): the drawing holds many "
-                             f"large circles over many texts; check the drive's part of it on its own")
-        for a, b in zip(ks[ti].tolist(), ci.tolist()):
-            hits.setdefault(a, []).append(b)
+    try:
+        for ti, ci in box_candidates(tree, np.column_stack([t.x[keep], t.y[keep]]), limit, _CrowdedTexts):
+            for a, b in zip(keep[ti].tolist(), ci.tolist()):
+                hits.setdefault(a, []).append(b)
+    except Crowded as err:
+        raise FatalInput(err.line(d.path)) from err
     return hits
+
+
+class _CrowdedTexts(Crowded):
+    """Label-like texts fall in circles' boxes more often than :func:`texts_in_circles` looks."""
+
+    SAYS = ("{path}: label-like texts fall within circles {pairs} times or more, over the {limit} looked "
+            "at (layout.naming.MAX_TEXT_CIRCLE_PAIRS): the drawing holds many large circles over many "
+            "texts; check the drive's part of it on its own")
 
 
 def _label_like(text: str) -> bool:

@@ -107,11 +107,9 @@ class DocumentFile:
         self.doc = doc
 
     def write_into(self, fd: int, tmp: str) -> None:
-        doc = self.doc
-        encoding = "utf-8" if doc.dxfversion >= "AC1021" else doc.output_encoding
-        errors = "dxfreplace" if _has_dxfreplace() else "replace"
+        encoding, errors = _text_encoding(self.doc)
         with os.fdopen(fd, "w", encoding=encoding, errors=errors, newline="\n") as fh:
-            doc.write(fh)
+            self.doc.write(fh)
         seal_file(tmp)
 
 
@@ -234,10 +232,15 @@ def document_bytes(doc: Any) -> bytes:
 
     stream = io.StringIO()
     doc.write(stream)
-    text = stream.getvalue()
+    encoding, errors = _text_encoding(doc)
+    return seal(stream.getvalue().encode(encoding, errors=errors))
+
+
+def _text_encoding(doc: Any) -> tuple[str, str]:
+    """The encoding a document's text is written in (UTF-8 from R2007 on, else its code page)
+    and the error handler for characters it cannot hold (ezdxf's ``\\U+`` escapes)."""
     encoding = "utf-8" if doc.dxfversion >= "AC1021" else doc.output_encoding
-    raw = text.encode(encoding, errors="dxfreplace" if _has_dxfreplace() else "replace")
-    return seal(raw)
+    return encoding, "dxfreplace" if _has_dxfreplace() else "replace"
 
 
 def save_document(doc: Any, path: str | Path, *, mode: int | None = None) -> None:

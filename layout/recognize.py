@@ -34,6 +34,7 @@ import math
 from collections import Counter, defaultdict
 from dataclasses import dataclass, field
 from enum import IntEnum
+from typing import Iterator
 
 import numpy as np
 import shapely
@@ -48,7 +49,7 @@ from .errors import FatalInput
 from .read import Drawing, Segments, fmt_point as _fmt
 
 __all__ = ["Tolerances", "Wrap", "DrawnSpan", "Fault", "Chain", "Recognition", "PathEnds",
-           "recognize_paths", "layer_matches", "BELT_LAYER_WORDS"]
+           "recognize_paths", "layer_matches", "BELT_LAYER_WORDS", "Crowded", "box_candidates"]
 
 #: Layer names that show a path is meant as a belt when the spec names no belt layers
 #: (common practice: belt, rope and cable layers are named so).
@@ -68,8 +69,8 @@ NEAR_END_PAIRS_PER_END = 8
 MAX_RIM_CANDIDATES = 30_000_000
 #: Candidate circles allowed per line end (above the floor).
 RIM_CANDIDATES_PER_END = 20
-#: Line ends queried for their circle at a time (bounds the candidates held in memory).
-_ATTACH_BLOCK = 1024
+#: Points queried against the circles' boxes at a time (bounds the candidates held in memory).
+BOX_QUERY_BLOCK = 1024
 #: Beyond this many ends arriving on one circle, pairing is greedy instead of exhaustive.
 _EXHAUSTIVE_PAIRS = 4
 
@@ -531,15 +532,29 @@ def _attach(P: NDArray[np.float64], scene: _Scene, fracs: tuple[float, ...]) -> 
     reach = cr * (1 + max(fracs)) + scene.height
     tree = shapely.STRtree(shapely.box(cx - reach, cy - reach, cx + reach, cy + reach))
     limit = max(MAX_RIM_CANDIDATES, RIM_CANDIDATES_PER_END * len(P))
+    for qi, qc in box_candidates(tree, P, limit, CrowdedCircles):
+        _attach_block(P, qi, qc, scene, fracs, outs)
+    return outs
+
+
+def box_candidates(tree: shapely.STRtree, xy: NDArray[np.float64], limit: int, crowded: type[Crowded]
+                   ) -> Iterator[tuple[NDArray[np.int64], NDArray[np.int64]]]:
+    """The (point, box) candidates of the points ``xy`` in ``tree``'s boxes, as index arrays,
+    :data:`BOX_QUERY_BLOCK` points at a time (blocks without a candidate are skipped).
+
+    Raises
+    ------
+    Crowded
+        ``crowded(seen, limit)`` once more than ``limit`` candidates are found in all.
+    """
     seen = 0
-    for lo in range(0, len(P), _ATTACH_BLOCK):
-        qi, qc = tree.query(shapely.points(P[lo:lo + _ATTACH_BLOCK]))
+    for lo in range(0, len(xy), BOX_QUERY_BLOCK):
+        qi, qc = tree.query(shapely.points(xy[lo:lo + BOX_QUERY_BLOCK]))
         seen += qi.size
         if seen > limit:
-            raise CrowdedCircles(seen, limit)
+            raise crowded(seen, limit)
         if qi.size:
-            _attach_block(P, qi + lo, qc, scene, fracs, outs)
-    return outs
+            yield qi + lo, qc
 
 
 def _attach_block(P: NDArray[np.float64], qi0: NDArray[np.int64], qc0: NDArray[np.int64], scene: _Scene,
